@@ -1,0 +1,424 @@
+"""Station case files: schema, loading and validation, SI out.
+
+A case is a YAML file (see ``docs/case.md``, rendered from the schema below by
+:func:`schema_markdown`). Every quantity is a string with its unit, converted once here.
+Errors name the key path (``units[1].driver.rated_power``) and quote the schema's
+description of the field.
+"""
+
+from __future__ import annotations
+
+from dataclasses import dataclass, field
+from pathlib import Path
+from typing import Literal
+
+from pydantic import BaseModel, ConfigDict, Field, ValidationError
+
+from trainopt.drivers import driver_from_dict
+from trainopt.errors import InputError
+from trainopt.gas import Gas
+from trainopt.io_gas import read_yaml
+from trainopt.machines import Cooler, Section, Train, UnitStatus, speed_limits_from_rated
+from trainopt.units import Flow, Kind, atmospheric_pressure, parse_flow, parse_quantity
+
+Quantity = str | float | int
+
+
+class _Schema(BaseModel):
+    model_config = ConfigDict(extra="forbid", populate_by_name=True)
+
+
+class SiteSchema(_Schema):
+    """Where the station is."""
+
+    elevation: Quantity = Field("0 m", description="Site elevation above sea level [length], "
+                                "e.g. '350 m'; sets atmospheric pressure for gauge units.")
+    atmospheric_pressure: Quantity | None = Field(None, description="Local atmospheric "
+                                                  "pressure [pressure]; overrides elevation.")
+    ambient_temperature: Quantity = Field("15 degC", description="Ambient air temperature "
+                                          "[temperature]; sets gas-turbine power.")
+
+
+class GasSchema(_Schema):
+    """The gas: a composition here, or a file holding one."""
+
+    file: str | None = Field(None, description="YAML file with a 'composition', relative to "
+                             "the case file.")
+    composition: dict[str, Quantity] | None = Field(None, description="Component to mole "
+                                                    "fraction [-] or percentage ('4.5 %').")
+    equation_of_state: Literal["gerg", "pr"] = Field("gerg", description="'gerg' (GERG-2008 "
+                                                     "parameters, default) or 'pr'.")
+
+
+class HeaderSchema(_Schema):
+    """A header's pressure (and, at suction, temperature)."""
+
+    pressure: Quantity = Field(..., description="Header pressure [pressure], e.g. '44 bar'.")
+    temperature: Quantity | None = Field(None, description="Header temperature "
+                                         "[temperature]; required at suction.")
+
+
+class CoolerSchema(_Schema):
+    """A cooler after a section."""
+
+    outlet_temperature: Quantity = Field(..., description="Gas temperature leaving the "
+                                         "cooler [temperature].")
+    pressure_drop: Quantity = Field("0 bar", description="Gas-side pressure drop [pressure "
+                                    "difference].")
+
+
+class SectionSchema(_Schema):
+    """One compressor section of a train."""
+
+    name: str = Field(..., description="Section name, unique in its train.")
+    map: str = Field(..., description="Map file (CSV or YAML), relative to the case file.")
+    speed_ratio: Quantity = Field(1.0, description="Section speed over shaft speed [-].")
+    surge_control_offset: Quantity = Field("10 %", description="Surge control line offset, "
+                                           "fraction of surge flow at the same head [-].")
+    max_discharge_temperature: Quantity | None = Field(None, description="Discharge "
+                                                       "temperature limit [temperature].")
+    cooler: CoolerSchema | None = Field(None, description="Cooler after this section.")
+
+
+class UnitSchema(_Schema):
+    """A compressor unit (one map) or train (several sections) with its driver."""
+
+    name: str = Field(..., description="Unit name, unique in the station.")
+    map: str | None = Field(None, description="Map file of a single-section unit.")
+    sections: list[SectionSchema] | None = Field(None, description="Sections in flow order "
+                                                 "(instead of 'map').")
+    driver: dict = Field(..., description="Driver: 'kind' and its fields (docs/drivers.md).")
+    speed_min: Quantity | None = Field(None, description="Least shaft speed [speed]; default "
+                                       "the larger of the driver's and the map's.")
+    speed_max: Quantity | None = Field(None, description="Largest shaft speed [speed]; default "
+                                       "the smaller of the driver's, the map's and 105 % of "
+                                       "rated_speed.")
+    rated_speed: Quantity | None = Field(None, description="Rated speed [speed]; maximum "
+                                         "continuous speed is 105 % of it (API 617 practice).")
+    surge_control_offset: Quantity = Field("10 %", description="Surge control line offset "
+                                           "of a single-section unit [-].")
+    max_discharge_temperature: Quantity | None = Field(None, description="Discharge "
+                                                       "temperature limit [temperature].")
+    max_power: Quantity | None = Field(None, description="Extra shaft-power limit [power].")
+    mechanical_loss: Quantity = Field("1 %", description="Bearing and seal losses, fraction "
+                                      "of gas power [-].")
+    status: Literal["available", "offline", "must_run"] = Field("available", description=
+                                                                "Whether the optimiser may "
+                                                                "start or stop it.")
+    group: str | None = Field(None, description="Identical units share a group name.")
+
+
+class EconomicsSchema(_Schema):
+    """Prices and emission factors for the cost objective and the CO2 report."""
+
+    currency: str = Field("USD", description="Currency label for reports.")
+    fuel_price: Quantity = Field("4 /GJ", description="Fuel-gas price per GJ (LHV), "
+                                 "e.g. '4.2 /GJ'.")
+    electricity_price: Quantity = Field("70 /MWh", description="Electricity price per MWh.")
+    co2_fuel: Quantity = Field("56.1 kg/GJ", description="CO2 per fuel energy (IPCC 2006 "
+                               "default for natural gas, 56,100 kg/TJ).")
+    co2_electricity: Quantity = Field("0.4 kg/kWh", description="CO2 per electrical energy.")
+
+
+class CaseSchema(_Schema):
+    """A station case: site, gas, headers, demand, units and objective."""
+
+    name: str = Field("station", description="Case name for reports.")
+    site: SiteSchema = Field(default_factory=SiteSchema, description="Site data.")
+    gas: GasSchema = Field(..., description="Gas composition.")
+    suction: HeaderSchema = Field(..., description="Suction header.")
+    discharge: HeaderSchema = Field(..., description="Discharge (delivery) header.")
+    demand: Quantity = Field(..., description="Station throughput: mass, actual or standard "
+                             "volume flow, e.g. '300 MMSCFD', '75 kg/s'.")
+    objective: Literal["shaft_power", "energy_input", "cost"] = Field(
+        "shaft_power", description="What the optimiser minimises.")
+    economics: EconomicsSchema = Field(default_factory=EconomicsSchema,
+                                       description="Prices and CO2 factors.")
+    units: list[UnitSchema] = Field(..., min_length=1, description="Compressor units/trains.")
+
+
+@dataclass(frozen=True)
+class Economics:
+    """Prices [currency/J] and CO2 factors [kg/J]."""
+
+    currency: str
+    fuel_price: float
+    electricity_price: float
+    co2_fuel: float
+    co2_electricity: float
+
+
+@dataclass(frozen=True)
+class Case:
+    """A validated station case, SI inside.
+
+    Attributes
+    ----------
+    name : str
+    path : Path
+    gas : Gas
+    atmospheric_pressure : float
+        [Pa].
+    ambient_temperature : float
+        [K].
+    suction_pressure, discharge_pressure : float
+        Header pressures [Pa].
+    suction_temperature : float
+        [K].
+    demand : Flow
+        As the user stated it; :meth:`demand_mass_flow` converts.
+    objective : str
+    economics : Economics
+    trains : tuple of Train
+    """
+
+    name: str
+    path: Path
+    gas: Gas
+    atmospheric_pressure: float
+    ambient_temperature: float
+    suction_pressure: float
+    suction_temperature: float
+    discharge_pressure: float
+    demand: Flow
+    objective: str
+    economics: Economics
+    trains: tuple[Train, ...]
+    extra: dict = field(default_factory=dict, compare=False)
+
+    def demand_mass_flow(self, demand: Flow | None = None) -> float:
+        """Demand as mass flow [kg/s] (standard volumes at their reference conditions)."""
+        flow = demand or self.demand
+        return self.gas.mass_flow(flow, self.gas.state(self.suction_pressure,
+                                                       self.suction_temperature))
+
+    def train(self, name: str) -> Train:
+        """The unit or train of that name."""
+        for t in self.trains:
+            if t.name == name:
+                return t
+        raise InputError("unit", f"no unit named '{name}'",
+                         f"use one of {', '.join(t.name for t in self.trains)}")
+
+
+def _price(text: Quantity, per: str, field_name: str) -> float:
+    """A price such as '4.2 /GJ' to currency per joule."""
+    s = str(text).replace(" ", "")
+    scale = {"/GJ": 1e-9, "/MWh": 1 / 3.6e9, "/kWh": 1 / 3.6e6, "/MMBtu": 1 / 1.055056e9}
+    for suffix, factor in scale.items():
+        if s.endswith(suffix):
+            try:
+                value = float(s[: -len(suffix)])
+            except ValueError:
+                break
+            if value < 0:
+                raise InputError(field_name, f"price {value:g} is negative")
+            return value * factor
+    raise InputError(field_name, f"cannot read the price {text!r}",
+                     f"write a number per energy, e.g. '4.2 {per}' (/GJ, /MWh, /kWh, /MMBtu)")
+
+
+def _co2(text: Quantity, field_name: str) -> float:
+    s = str(text).replace(" ", "")
+    for suffix, factor in {"kg/GJ": 1e-9, "kg/MWh": 1 / 3.6e9, "kg/kWh": 1 / 3.6e6,
+                           "t/MWh": 1e3 / 3.6e9}.items():
+        if s.endswith(suffix):
+            try:
+                return float(s[: -len(suffix)]) * factor
+            except ValueError:
+                break
+    raise InputError(field_name, f"cannot read the CO2 factor {text!r}",
+                     "write e.g. '56.1 kg/GJ' or '0.4 kg/kWh'")
+
+
+def _validation_error(exc: ValidationError, path: Path) -> InputError:
+    err = exc.errors()[0]
+    loc = ".".join(f"[{p}]" if isinstance(p, int) else str(p) for p in err["loc"])
+    loc = loc.replace(".[", "[")
+    problem = err["msg"]
+    if err["type"] == "extra_forbidden":
+        problem = "is not a key of the case schema (docs/case.md)"
+    elif err["type"] == "missing":
+        problem = "is missing"
+    return InputError(f"{path}: {loc}", problem, _describe(err["loc"]))
+
+
+def _describe(loc) -> str | None:
+    model = CaseSchema
+    description = None
+    for part in loc:
+        if isinstance(part, int):
+            continue
+        fields = getattr(model, "model_fields", {})
+        if part not in fields:
+            return description and f"schema: {description}"
+        info = fields[part]
+        description = info.description
+        ann = info.annotation
+        args = getattr(ann, "__args__", ()) or (ann,)
+        model = next((a for a in args if isinstance(a, type) and issubclass(a, BaseModel)),
+                     next((getattr(a, "__args__", (None,))[0] for a in args
+                           if getattr(a, "__args__", None)), None))
+    return description and f"schema: {description}"
+
+
+def load_case(path: str | Path, load_map=None) -> Case:
+    """Read and validate a station case file.
+
+    Parameters
+    ----------
+    path : str or Path
+        The YAML case.
+    load_map : callable, optional
+        ``load_map(path) -> CompressorMap``; :func:`trainopt.maps.load_map` by default.
+
+    Returns
+    -------
+    Case
+    """
+    from trainopt.maps import load_map as default_loader
+
+    load_map = load_map or default_loader
+    path = Path(path)
+    data = read_yaml(path)
+    try:
+        schema = CaseSchema.model_validate(data)
+    except ValidationError as exc:
+        raise _validation_error(exc, path) from None
+    return _build(schema, path, load_map)
+
+
+def _build(s: CaseSchema, path: Path, load_map) -> Case:
+    here = path.parent
+    p = f"{path}: "
+    atm = (parse_quantity(s.site.atmospheric_pressure, Kind.PRESSURE, p + "site.atmospheric_"
+                          "pressure") if s.site.atmospheric_pressure is not None
+           else atmospheric_pressure(parse_quantity(s.site.elevation, Kind.LENGTH,
+                                                    p + "site.elevation")))
+    ambient = parse_quantity(s.site.ambient_temperature, Kind.TEMPERATURE,
+                             p + "site.ambient_temperature")
+    gas = _gas(s.gas, here, p)
+    p1 = parse_quantity(s.suction.pressure, Kind.PRESSURE, p + "suction.pressure",
+                        atmospheric=atm)
+    if s.suction.temperature is None:
+        raise InputError(p + "suction.temperature", "is missing", "give e.g. '20 degC'")
+    t1 = parse_quantity(s.suction.temperature, Kind.TEMPERATURE, p + "suction.temperature")
+    p2 = parse_quantity(s.discharge.pressure, Kind.PRESSURE, p + "discharge.pressure",
+                        atmospheric=atm)
+    if not p2 > p1:
+        raise InputError(p + "discharge.pressure", f"{p2 / 1e3:.0f} kPa is not above suction "
+                         f"{p1 / 1e3:.0f} kPa", "check the header pressures")
+    gas.check_gas_phase(p1, t1, p + "suction")
+    demand = parse_flow(s.demand, p + "demand")
+    if demand.value < 0:
+        raise InputError(p + "demand", f"{s.demand} is negative", "give a positive throughput")
+    e = s.economics
+    econ = Economics(e.currency, _price(e.fuel_price, "/GJ", p + "economics.fuel_price"),
+                     _price(e.electricity_price, "/MWh", p + "economics.electricity_price"),
+                     _co2(e.co2_fuel, p + "economics.co2_fuel"),
+                     _co2(e.co2_electricity, p + "economics.co2_electricity"))
+    names = [u.name for u in s.units]
+    for n in names:
+        if names.count(n) > 1:
+            raise InputError(p + "units", f"the name '{n}' is used twice", "make names unique")
+    trains = tuple(_train(u, i, here, p, load_map) for i, u in enumerate(s.units))
+    return Case(s.name, path, gas, atm, ambient, p1, t1, p2, demand, s.objective, econ, trains)
+
+
+def _gas(g: GasSchema, here: Path, p: str) -> Gas:
+    from trainopt.gas import EquationOfState
+    from trainopt.io_gas import load_gas
+
+    eos = EquationOfState.GERG2008 if g.equation_of_state == "gerg" else \
+        EquationOfState.PENG_ROBINSON
+    if g.file:
+        return load_gas(here / g.file, eos)
+    if g.composition is None:
+        raise InputError(p + "gas", "give either 'file' or 'composition'")
+    return Gas.from_composition(g.composition, eos, p + "gas.composition")
+
+
+def _fraction(text: Quantity, field_name: str) -> float:
+    return parse_quantity(text, Kind.DIMENSIONLESS, field_name)
+
+
+def _train(u: UnitSchema, i: int, here: Path, p: str, load_map) -> Train:
+    key = f"{p}units[{i}]"
+    if (u.map is None) == (u.sections is None):
+        raise InputError(key, "give either 'map' (one section) or 'sections'", None)
+    t_max = (parse_quantity(u.max_discharge_temperature, Kind.TEMPERATURE,
+                            key + ".max_discharge_temperature")
+             if u.max_discharge_temperature is not None else None)
+    if u.map is not None:
+        sections = (Section(u.name, _map(load_map, here / u.map, key + ".map"), 1.0,
+                            _fraction(u.surge_control_offset, key + ".surge_control_offset"),
+                            t_max),)
+    else:
+        if not u.sections:
+            raise InputError(key + ".sections", "a train needs at least one section")
+        sections = tuple(_section(sec, j, here, key, t_max, load_map)
+                         for j, sec in enumerate(u.sections))
+    driver = driver_from_dict(u.driver, key + ".driver")
+    first = sections[0]
+    map_lo = first.compressor_map.speed_min / first.speed_ratio
+    map_hi = first.compressor_map.speed_max / first.speed_ratio
+    lo = max(driver.speed_min, map_lo)
+    hi = min(driver.speed_max, map_hi)
+    if u.rated_speed is not None:
+        hi = min(hi, speed_limits_from_rated(parse_quantity(u.rated_speed, Kind.SPEED,
+                                                            key + ".rated_speed"))[0])
+    if u.speed_min is not None:
+        lo = parse_quantity(u.speed_min, Kind.SPEED, key + ".speed_min")
+    if u.speed_max is not None:
+        hi = parse_quantity(u.speed_max, Kind.SPEED, key + ".speed_max")
+    if not lo < hi:
+        raise InputError(key + ".speed_min", f"minimum speed {lo * 60:.0f} rpm is not below "
+                         f"maximum {hi * 60:.0f} rpm (after the driver's and map's ranges)",
+                         "check the speed limits of the driver and the map")
+    max_power = (parse_quantity(u.max_power, Kind.POWER, key + ".max_power")
+                 if u.max_power is not None else None)
+    return Train(u.name, sections, driver, lo, hi, max_power,
+                 _fraction(u.mechanical_loss, key + ".mechanical_loss"),
+                 UnitStatus(u.status), u.group)
+
+
+def _section(sec: SectionSchema, j: int, here: Path, key: str, t_max, load_map) -> Section:
+    k = f"{key}.sections[{j}]"
+    cooler = None
+    if sec.cooler is not None:
+        cooler = Cooler(parse_quantity(sec.cooler.outlet_temperature, Kind.TEMPERATURE,
+                                       k + ".cooler.outlet_temperature"),
+                        parse_quantity(sec.cooler.pressure_drop, Kind.PRESSURE_DIFFERENCE,
+                                       k + ".cooler.pressure_drop"))
+    limit = (parse_quantity(sec.max_discharge_temperature, Kind.TEMPERATURE,
+                            k + ".max_discharge_temperature")
+             if sec.max_discharge_temperature is not None else t_max)
+    ratio = _fraction(sec.speed_ratio, k + ".speed_ratio")
+    if not ratio > 0:
+        raise InputError(k + ".speed_ratio", f"{ratio:g} is not a positive ratio",
+                         "give section speed / shaft speed, e.g. 1.0")
+    return Section(sec.name, _map(load_map, here / sec.map, k + ".map"), ratio,
+                   _fraction(sec.surge_control_offset, k + ".surge_control_offset"), limit,
+                   cooler)
+
+
+def _map(load_map, path: Path, field_name: str):
+    if not path.is_file():
+        raise InputError(field_name, f"map file {path} not found", "check the path")
+    return load_map(path)
+
+
+def schema_markdown() -> str:
+    """The case schema as Markdown tables (key, type, default, description)."""
+    lines = []
+    for model in (CaseSchema, SiteSchema, GasSchema, HeaderSchema, UnitSchema, SectionSchema,
+                  CoolerSchema, EconomicsSchema):
+        lines += [f"### {model.__name__.removesuffix('Schema')}", "", model.__doc__ or "", "",
+                  "| key | required | default | description |", "|---|---|---|---|"]
+        for name, info in model.model_fields.items():
+            required = "yes" if info.is_required() else "no"
+            default = "" if info.is_required() else repr(info.get_default(
+                call_default_factory=False)) if info.default_factory is None else "(section)"
+            lines.append(f"| `{name}` | {required} | {default} | {info.description} |")
+        lines.append("")
+    return "\n".join(lines)

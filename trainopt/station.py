@@ -1,0 +1,277 @@
+"""The station's main job: least-power load split, and the evaluation of a given split.
+
+``optimize`` reduces every unit to a least-power curve at today's conditions, hands the
+curves to the dispatch model (:mod:`trainopt.model`, solved by HiGHS in
+:mod:`trainopt.solve`), evaluates the chosen split on the true model, refines it there,
+and compares it with the usual load-sharing baselines. ``evaluate`` takes a split the
+user gives and reports it the same way.
+"""
+
+from __future__ import annotations
+
+from collections.abc import Iterable, Mapping
+
+import numpy as np
+from scipy.interpolate import CubicSpline
+from scipy.optimize import minimize
+
+from trainopt.case import Case
+from trainopt.compression import HeadBasis
+from trainopt.conditions import Duty
+from trainopt.errors import InputError
+from trainopt.machines import Train, UnitStatus
+from trainopt.model import UnitCurve
+from trainopt.reduction import LIMIT_NAMES, LeastPowerCurve, reduce_unit
+from trainopt.result import StationResult, unit_rows
+from trainopt.solve import solve_dispatch
+from trainopt.units import parse_flow
+
+OBJECTIVES = ("shaft_power", "energy_input", "cost")
+
+
+class Station:
+    """A case at one set of conditions, reduced once and reusable for many demands.
+
+    Parameters
+    ----------
+    case : Case
+        The validated case.
+    offline : iterable of str
+        Units to take offline on top of the case's own status.
+    objective : str, optional
+        ``shaft_power``, ``energy_input`` or ``cost``; the case's by default.
+    """
+
+    def __init__(self, case: Case, offline: Iterable[str] = (), objective: str | None = None):
+        self.case = case
+        self.objective = objective or case.objective
+        if self.objective not in OBJECTIVES:
+            raise InputError("objective", f"unknown objective '{self.objective}'",
+                             f"use one of {', '.join(OBJECTIVES)}")
+        offline = list(offline)
+        for name in offline:
+            case.train(name)
+        self.status = {t.name: (UnitStatus.OFFLINE if t.name in offline else t.status)
+                       for t in case.trains}
+        self._duties: dict[HeadBasis, Duty] = {}
+        self.curves: dict[str, LeastPowerCurve] = {}
+        for train in case.trains:
+            if self.status[train.name] is UnitStatus.OFFLINE:
+                continue
+            if train.is_single_section:
+                self.curves[train.name] = reduce_unit(train, self.duty(train),
+                                                      case.ambient_temperature)
+            else:
+                from trainopt.series import reduce_train
+
+                self.curves[train.name] = reduce_train(self, train)
+
+    def duty(self, train: Train) -> Duty:
+        """The compression duty of a unit, tabulated once per map basis."""
+        basis = train.sections[0].compressor_map.basis
+        basis = HeadBasis(getattr(basis, "value", basis))
+        if basis not in self._duties:
+            c = self.case
+            self._duties[basis] = Duty.build(c.gas, c.suction_pressure, c.suction_temperature,
+                                             c.discharge_pressure, basis)
+        return self._duties[basis]
+
+    def price(self, train: Train) -> tuple[float, float]:
+        """Energy price [currency/J] and CO2 factor [kg/J] of a unit's driver input."""
+        econ = self.case.economics
+        if "motor" in train.driver.kind:
+            return econ.electricity_price, econ.co2_electricity
+        return econ.fuel_price, econ.co2_fuel
+
+    def cost(self, train: Train, shaft_power, energy_input):
+        """The objective at shaft power and energy input [W] (W or currency/s)."""
+        if self.objective == "shaft_power":
+            return shaft_power
+        if self.objective == "energy_input":
+            return energy_input
+        return energy_input * self.price(train)[0]
+
+    def unit_curves(self) -> list[UnitCurve]:
+        """The feasible units' curves in the dispatch model's terms."""
+        out = []
+        for name, curve in self.curves.items():
+            if not curve.feasible:
+                continue
+            train = self.case.train(name)
+            cost = self.cost(train, curve.shaft_power, curve.energy_input)
+            out.append(UnitCurve(name, curve.mass_flow, np.asarray(cost, float),
+                                 self.status[name].value, train.group))
+        return out
+
+    def sampled_cost(self, name: str) -> CubicSpline:
+        """The objective of one unit against through-flow [kg/s], from the fine true sample.
+
+        Cubic interpolation of the ~200-point sample of the true model taken during the
+        reduction; between samples it departs from the true model by far less than the
+        breakpoint tolerance. The final split is always re-evaluated on the true model.
+        """
+        curve = self.curves[name]
+        train = self.case.train(name)
+        cost = self.cost(train, curve.sample_shaft_power, curve.sample_energy_input)
+        return CubicSpline(curve.sample_flow, cost)
+
+    def refine(self, through: dict[str, float]) -> dict[str, float]:
+        """Refine running units' interior flows on the sampled true model, keeping their sum.
+
+        A local SLSQP solve (SciPy) from the dispatch's split, within each unit's curve
+        range; kept only if it lowers the objective.
+        """
+        names = [n for n, m in through.items() if m > 0]
+        if len(names) < 2:
+            return through
+        lo = np.array([self.curves[n].min_flow for n in names])
+        hi = np.array([self.curves[n].max_flow for n in names])
+        x0 = np.array([through[n] for n in names])
+        total = x0.sum()
+        splines = [self.sampled_cost(n) for n in names]
+        scale = max(float(sum(s(m) for s, m in zip(splines, x0, strict=True))), 1e-9)
+
+        def f(x):
+            return float(sum(s(m) for s, m in zip(splines, x, strict=True))) / scale
+
+        res = minimize(f, x0, method="SLSQP", bounds=list(zip(lo, hi, strict=True)),
+                       constraints=[{"type": "eq", "fun": lambda x: x.sum() - total}],
+                       options={"ftol": 1e-13, "maxiter": 200})
+        if res.success and f(res.x) < f(x0) and abs(res.x.sum() - total) < 1e-9 * total:
+            out = dict(through)
+            out.update({n: float(np.clip(m, a, b)) for n, m, a, b in
+                        zip(names, res.x, lo, hi, strict=True)})
+            return out
+        return through
+
+
+def _infeasible_units_text(station: Station) -> str:
+    bad = [f"{n}: {c.reason}" for n, c in station.curves.items() if not c.feasible]
+    return ("; units that cannot meet today's duty: " + "; ".join(bad)) if bad else ""
+
+
+def optimize(case: Case, demand=None, offline: Iterable[str] = (), objective: str | None = None,
+             baselines: bool = True) -> StationResult:
+    """Least-objective split of the demand across the station's units.
+
+    Parameters
+    ----------
+    case : Case
+        From :func:`trainopt.load_case`.
+    demand : str or float, optional
+        Throughput with a unit (``"280 MMSCFD"``, ``"70 kg/s"``) or a mass flow [kg/s];
+        the case's demand by default.
+    offline : iterable of str, optional
+        Units to take offline.
+    objective : str, optional
+        ``shaft_power`` (default of cases), ``energy_input`` or ``cost``.
+    baselines : bool, optional
+        Also evaluate equal-flow, equal-speed and equal-margin sharing.
+
+    Returns
+    -------
+    StationResult
+        Status ``"optimal"`` with the per-unit table, or ``"infeasible"`` with the reason.
+    """
+    station = Station(case, offline, objective)
+    m_demand = _demand(case, demand)
+    curves = station.unit_curves()
+    if not curves:
+        reason = "no unit is available" + _infeasible_units_text(station)
+        return StationResult.infeasible(case, m_demand, reason, station.objective)
+    dispatch = solve_dispatch(curves, m_demand)
+    if dispatch.status == "infeasible":
+        return StationResult.infeasible(case, m_demand, dispatch.reason
+                                        + _infeasible_units_text(station), station.objective)
+    through = {n: dispatch.through_flow.get(n, 0.0) for n in station.curves}
+    recycle = {n: dispatch.recycle.get(n, 0.0) for n in station.curves}
+    piecewise = dispatch.objective
+    refined = station.refine({n: through[n] for n in through if recycle[n] <= 0.0})
+    through.update(refined)
+    result = _result(station, through, recycle, m_demand)
+    result.solver = {"piecewise_objective": piecewise, "formulation": dispatch.formulation,
+                     "build_seconds": dispatch.build_seconds,
+                     "solve_seconds": dispatch.solve_seconds,
+                     "mip_gap": dispatch.mip_gap_achieved,
+                     "breakpoint_error_W": {n: c.error_bound for n, c in station.curves.items()},
+                     "convex": {n: c.convex for n, c in station.curves.items()}}
+    if baselines:
+        from trainopt.baselines import compare_baselines
+
+        result.baselines = compare_baselines(station, result, m_demand)
+    return result
+
+
+def evaluate(case: Case, split: Mapping[str, object]) -> StationResult:
+    """Evaluate a given split on the true model.
+
+    Parameters
+    ----------
+    case : Case
+    split : mapping of str to str or float
+        Unit name to net mass flow [kg/s] (or a flow string with its unit). Units absent
+        are stopped. Each running unit gets the least recycle it needs.
+
+    Returns
+    -------
+    StationResult
+        ``"infeasible"`` with the reason if a unit cannot carry its share.
+    """
+    names = {t.name for t in case.trains}
+    flows = {}
+    for name, value in split.items():
+        if name not in names:
+            raise InputError(f"split.{name}", f"no unit named '{name}'",
+                             f"use one of {', '.join(sorted(names))}")
+        if isinstance(value, str):
+            value = case.demand_mass_flow(parse_flow(value, f"split.{name}"))
+        if not float(value) >= 0:
+            raise InputError(f"split.{name}", f"{value} is negative", "give a net flow >= 0")
+        flows[name] = float(value)
+    offline = [t.name for t in case.trains if t.name not in flows]
+    for name in flows:
+        if case.train(name).status is UnitStatus.OFFLINE:
+            raise InputError(f"split.{name}", "the case marks this unit offline",
+                             "leave it out of the split or change its status")
+    station = Station(case, offline)
+    return evaluate_split(station, flows)
+
+
+def evaluate_split(station: Station, net: Mapping[str, float]) -> StationResult:
+    """Evaluate net flows [kg/s] for running units on a reduced station."""
+    through, recycle = {}, {}
+    total = float(sum(net.values()))
+    for name, m in net.items():
+        curve = station.curves[name]
+        if not curve.feasible:
+            return StationResult.infeasible(station.case, total, f"{name}: {curve.reason}",
+                                            station.objective)
+        if m > curve.max_flow * (1 + 1e-9):
+            return StationResult.infeasible(
+                station.case, total,
+                f"{name} cannot carry {m:.2f} kg/s: its largest through-flow today is "
+                f"{curve.max_flow:.2f} kg/s, set by the {LIMIT_NAMES[curve.high_limit]}",
+                station.objective)
+        through[name] = max(m, curve.min_flow)
+        recycle[name] = through[name] - m
+    for name in station.curves:
+        through.setdefault(name, 0.0)
+        recycle.setdefault(name, 0.0)
+    return _result(station, through, recycle, total)
+
+
+def _demand(case: Case, demand) -> float:
+    if demand is None:
+        return case.demand_mass_flow()
+    if isinstance(demand, int | float):
+        value = float(demand)
+    else:
+        value = case.demand_mass_flow(parse_flow(demand, "demand"))
+    if value < 0:
+        raise InputError("demand", f"{demand} is negative", "give a throughput of zero or more")
+    return value
+
+
+def _result(station: Station, through, recycle, demand: float) -> StationResult:
+    rows = unit_rows(station, through, recycle)
+    return StationResult.from_rows(station.case, demand, rows, station.objective)
