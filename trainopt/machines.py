@@ -16,6 +16,7 @@ from dataclasses import dataclass, field
 from enum import Enum
 
 from trainopt.errors import InputError
+from trainopt.maps.compressor_map import DEFAULT_CONTROL_LINE_OFFSET
 
 MAX_CONTINUOUS_SPEED_FRACTION = 1.05
 """Maximum continuous speed over rated speed [-] (API 617 practice, common practice)."""
@@ -23,7 +24,7 @@ MAX_CONTINUOUS_SPEED_FRACTION = 1.05
 TRIP_SPEED_FRACTION = 1.10
 """Trip speed over maximum continuous speed [-] (API 617 practice, common practice)."""
 
-DEFAULT_SURGE_CONTROL_OFFSET = 0.10
+DEFAULT_SURGE_CONTROL_OFFSET = DEFAULT_CONTROL_LINE_OFFSET
 """Surge control line offset as a fraction of surge flow at the same head [-] (common practice)."""
 
 DEFAULT_MECHANICAL_LOSS = 0.01
