@@ -7,6 +7,8 @@ composition and process; so the gases here are session-scoped and tests that nee
 dew point use the lean gas, never the NIST one.
 """
 
+from pathlib import Path
+
 import pytest
 
 from trainopt.gas import EquationOfState, Gas
@@ -60,3 +62,30 @@ def aga8_gulf_coast_gas_peng_robinson():
     """AGA 8's Gulf Coast gas with the Peng-Robinson equation of state."""
     return Gas.from_composition({k: v / 100.0 for k, v in AGA8_GULF_COAST_GAS_PERCENT.items()},
                                 EquationOfState.PENG_ROBINSON)
+
+
+@pytest.fixture(scope="session")
+def write_demo_variant():
+    """Write a variant of a demo case (a dict) to a folder, its map and gas paths resolved.
+
+    Call ``write_demo_variant(folder, data)``: the variant's ``gas`` and every ``map`` (of
+    units and of sections) point at ``cases/demo``; returns the case file's path. For tests
+    of bad input and of case layouts built on the invented demo data.
+    """
+    import yaml
+
+    demo = Path(__file__).parents[1] / "cases" / "demo"
+
+    def write(folder: Path, data: dict) -> Path:
+        data = yaml.safe_load(yaml.safe_dump(data))
+        data["gas"] = {"file": str(demo / "gas.yaml")}
+        for unit in data["units"]:
+            if "map" in unit:
+                unit["map"] = str(demo / unit["map"])
+            for section in unit.get("sections") or []:
+                section["map"] = str(demo / section["map"])
+        path = folder / "case.yaml"
+        path.write_text(yaml.safe_dump(data))
+        return path
+
+    return write

@@ -18,8 +18,6 @@ from __future__ import annotations
 import numpy as np
 from scipy.optimize import brentq
 
-from trainopt.reduction import operate
-
 
 def _net_for_total(share, total: float, lo_x: float, hi_x: float):
     """Find x with sum(share(x)) = total by bisection; share is non-decreasing in x."""
@@ -47,17 +45,17 @@ def baseline_splits(station, running: list[str], demand: float) -> dict[str, dic
     dict
         Rule name to {unit: net flow}.
     """
-    case = station.case
+    running = list(dict.fromkeys(running))  # a series train has one row per section
     curves = [station.curves[n] for n in running]
-    trains = [case.train(n) for n in running]
     out = {"equal_flow": {n: demand / len(running) for n in running}}
 
     # Equal speed: through-flow of each unit against speed, sampled along its curve.
-    samples = []
-    for train, curve in zip(trains, curves, strict=True):
+    samples, scl = [], []
+    for name, curve in zip(running, curves, strict=True):
         m = np.linspace(curve.min_flow, curve.max_flow, 80)
-        op = operate(train, station.duty(train), m, case.ambient_temperature)
-        samples.append((op.speed / train.speed_max, m))
+        fraction, margin = station.profile(name, m)
+        samples.append((fraction, m))
+        scl.append((margin, m))
 
     def by_speed(x):
         return np.array([np.interp(x, s, m) for s, m in samples])
@@ -67,16 +65,11 @@ def baseline_splits(station, running: list[str], demand: float) -> dict[str, dic
                                   strict=True))
 
     # Equal margin to the surge control line.
-    scl = []
-    for train, curve in zip(trains, curves, strict=True):
-        m = np.linspace(curve.min_flow, curve.max_flow, 80)
-        op = operate(train, station.duty(train), m, case.ambient_temperature)
-        scl.append(((op.volume_flow - op.control_line_flow) / op.control_line_flow, m))
-
     def by_margin(x):
         return np.array([np.interp(x, d, m) for d, m in scl])
 
-    x = _net_for_total(by_margin, demand, 0.0, 5.0)
+    # search up to the largest sampled margin: wide maps reach several hundred per cent
+    x = _net_for_total(by_margin, demand, 0.0, max(float(np.max(d)) for d, _ in scl))
     out["equal_margin"] = dict(zip(running, by_margin(x) * _scale(by_margin(x), demand),
                                    strict=True))
     return out
@@ -106,7 +99,8 @@ def compare_baselines(station, optimum, demand: float) -> dict:
     """
     from trainopt.station import evaluate_split
 
-    running = [r["name"] for r in optimum.units.to_dict("records") if r.get("running")]
+    running = list(dict.fromkeys(r["name"] for r in optimum.units.to_dict("records")
+                                 if r.get("running")))
     if not running:
         return {}
     best_power = optimum.total_shaft_power
@@ -120,7 +114,7 @@ def compare_baselines(station, optimum, demand: float) -> dict:
             power = res.total_shaft_power
             entry.update({
                 "total_shaft_power_kW": power / 1e3,
-                "total_recycle_kg_s": float(res.units.get("recycle_kg_s", 0).fillna(0).sum()),
+                "total_recycle_kg_s": res.total("recycle_kg_s"),
                 "saving_kW": (power - best_power) / 1e3,
                 "saving_pct": 100.0 * (power - best_power) / power if power > 0 else 0.0,
             })

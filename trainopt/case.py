@@ -18,7 +18,14 @@ from trainopt.drivers import driver_from_dict
 from trainopt.errors import InputError
 from trainopt.gas import Gas
 from trainopt.io_gas import read_yaml
-from trainopt.machines import Cooler, Section, Train, UnitStatus, speed_limits_from_rated
+from trainopt.machines import (
+    Cooler,
+    Section,
+    SectionDrive,
+    Train,
+    UnitStatus,
+    speed_limits_from_rated,
+)
 from trainopt.units import Flow, Kind, atmospheric_pressure, parse_flow, parse_quantity
 
 Quantity = str | float | int
@@ -32,7 +39,8 @@ class SiteSchema(_Schema):
     """Where the station is."""
 
     elevation: Quantity = Field("0 m", description="Site elevation above sea level [length], "
-                                "e.g. '350 m'; sets atmospheric pressure for gauge units.")
+                                "e.g. '350 m'; sets atmospheric pressure for gauge units, "
+                                "which need it (or atmospheric_pressure) stated.")
     atmospheric_pressure: Quantity | None = Field(None, description="Local atmospheric "
                                                   "pressure [pressure]; overrides elevation.")
     ambient_temperature: Quantity = Field("15 degC", description="Ambient air temperature "
@@ -78,6 +86,17 @@ class SectionSchema(_Schema):
     max_discharge_temperature: Quantity | None = Field(None, description="Discharge "
                                                        "temperature limit [temperature].")
     cooler: CoolerSchema | None = Field(None, description="Cooler after this section.")
+    driver: dict | None = Field(None, description="The section's own driver, for series "
+                                "sections that do not share a shaft (then every section "
+                                "has one and the unit has none); docs/series.md.")
+    speed_min: Quantity | None = Field(None, description="Least speed [speed] of a "
+                                       "separately driven section.")
+    speed_max: Quantity | None = Field(None, description="Largest speed [speed] of a "
+                                       "separately driven section.")
+    rated_speed: Quantity | None = Field(None, description="Rated speed [speed] of a "
+                                         "separately driven section.")
+    max_power: Quantity | None = Field(None, description="Extra shaft-power limit [power] of "
+                                       "a separately driven section.")
 
 
 class UnitSchema(_Schema):
@@ -87,7 +106,8 @@ class UnitSchema(_Schema):
     map: str | None = Field(None, description="Map file of a single-section unit.")
     sections: list[SectionSchema] | None = Field(None, description="Sections in flow order "
                                                  "(instead of 'map').")
-    driver: dict = Field(..., description="Driver: 'kind' and its fields (docs/drivers.md).")
+    driver: dict | None = Field(None, description="Driver: 'kind' and its fields "
+                                "(docs/drivers.md); omit it when every section has its own.")
     speed_min: Quantity | None = Field(None, description="Least shaft speed [speed]; default "
                                        "the larger of the driver's and the map's.")
     speed_max: Quantity | None = Field(None, description="Largest shaft speed [speed]; default "
@@ -120,6 +140,23 @@ class EconomicsSchema(_Schema):
     co2_electricity: Quantity = Field("0.4 kg/kWh", description="CO2 per electrical energy.")
 
 
+class InterstageHeaderSchema(_Schema):
+    """A header joining two groups of parallel units in series (docs/series.md)."""
+
+    upstream_units: list[str] = Field(..., description="Units taking gas from the suction "
+                                      "header into this header.")
+    downstream_units: list[str] = Field(..., description="Units taking gas from this header "
+                                        "to the discharge header.")
+    cooler: CoolerSchema = Field(..., description="Cooler between this header and the "
+                                 "downstream units' suction: its outlet temperature is their "
+                                 "suction temperature, its pressure drop lies below the header "
+                                 "pressure.")
+    pressure_min: Quantity | None = Field(None, description="Lowest header pressure "
+                                          "[pressure] the search may choose.")
+    pressure_max: Quantity | None = Field(None, description="Highest header pressure "
+                                          "[pressure] the search may choose.")
+
+
 class CaseSchema(_Schema):
     """A station case: site, gas, headers, demand, units and objective."""
 
@@ -135,6 +172,9 @@ class CaseSchema(_Schema):
     economics: EconomicsSchema = Field(default_factory=EconomicsSchema,
                                        description="Prices and CO2 factors.")
     units: list[UnitSchema] = Field(..., min_length=1, description="Compressor units/trains.")
+    interstage_header: InterstageHeaderSchema | None = Field(
+        None, description="A shared interstage header between two groups of units; "
+        "without it every unit runs between the suction and discharge headers.")
 
 
 @dataclass(frozen=True)
@@ -146,6 +186,27 @@ class Economics:
     electricity_price: float
     co2_fuel: float
     co2_electricity: float
+
+
+@dataclass(frozen=True)
+class InterstageHeader:
+    """A header joining an upstream and a downstream group of parallel units.
+
+    Attributes
+    ----------
+    upstream_units, downstream_units : tuple of str
+        Unit names of each group.
+    cooler : Cooler
+        Between the header and the downstream suction.
+    pressure_min, pressure_max : float
+        Range of header pressures [Pa] the search may choose.
+    """
+
+    upstream_units: tuple[str, ...]
+    downstream_units: tuple[str, ...]
+    cooler: Cooler
+    pressure_min: float
+    pressure_max: float
 
 
 @dataclass(frozen=True)
@@ -170,6 +231,7 @@ class Case:
     objective : str
     economics : Economics
     trains : tuple of Train
+    interstage_header : InterstageHeader or None
     """
 
     name: str
@@ -185,6 +247,7 @@ class Case:
     economics: Economics
     trains: tuple[Train, ...]
     extra: dict = field(default_factory=dict, compare=False)
+    interstage_header: InterstageHeader | None = None
 
     def demand_mass_flow(self, demand: Flow | None = None) -> float:
         """Demand as mass flow [kg/s] (standard volumes at their reference conditions)."""
@@ -251,7 +314,9 @@ def _describe(loc) -> str | None:
             continue
         fields = getattr(model, "model_fields", {})
         if part not in fields:
-            return description and f"schema: {description}"
+            if fields:  # an unknown key: quote the keys of this level
+                return f"schema: the keys allowed here are {', '.join(fields)}"
+            break
         info = fields[part]
         description = info.description
         ann = info.annotation
@@ -298,13 +363,15 @@ def _build(s: CaseSchema, path: Path, load_map) -> Case:
     ambient = parse_quantity(s.site.ambient_temperature, Kind.TEMPERATURE,
                              p + "site.ambient_temperature")
     gas = _gas(s.gas, here, p)
+    # gauge pressures need a stated site: sea level is not assumed for them
+    gauge_atm = atm if {"elevation", "atmospheric_pressure"} & s.site.model_fields_set else None
     p1 = parse_quantity(s.suction.pressure, Kind.PRESSURE, p + "suction.pressure",
-                        atmospheric=atm)
+                        atmospheric=gauge_atm)
     if s.suction.temperature is None:
         raise InputError(p + "suction.temperature", "is missing", "give e.g. '20 degC'")
     t1 = parse_quantity(s.suction.temperature, Kind.TEMPERATURE, p + "suction.temperature")
     p2 = parse_quantity(s.discharge.pressure, Kind.PRESSURE, p + "discharge.pressure",
-                        atmospheric=atm)
+                        atmospheric=gauge_atm)
     if not p2 > p1:
         raise InputError(p + "discharge.pressure", f"{p2 / 1e3:.0f} kPa is not above suction "
                          f"{p1 / 1e3:.0f} kPa", "check the header pressures")
@@ -321,8 +388,54 @@ def _build(s: CaseSchema, path: Path, load_map) -> Case:
     for n in names:
         if names.count(n) > 1:
             raise InputError(p + "units", f"the name '{n}' is used twice", "make names unique")
-    trains = tuple(_train(u, i, here, p, load_map) for i, u in enumerate(s.units))
-    return Case(s.name, path, gas, atm, ambient, p1, t1, p2, demand, s.objective, econ, trains)
+    trains = tuple(_train(u, i, here, p, load_map, atm) for i, u in enumerate(s.units))
+    header = (None if s.interstage_header is None
+              else _interstage_header(s.interstage_header, names, p, p1, p2, atm))
+    return Case(s.name, path, gas, atm, ambient, p1, t1, p2, demand, s.objective, econ, trains,
+                interstage_header=header)
+
+
+def _interstage_header(h: InterstageHeaderSchema, names: list[str], p: str, p1: float,
+                       p2: float, atm: float) -> InterstageHeader:
+    key = p + "interstage_header"
+    for side in ("upstream_units", "downstream_units"):
+        group = getattr(h, side)
+        if not group:
+            where = "upstream" if side.startswith("up") else "downstream"
+            raise InputError(f"{key}.{side}", f"the shared header has nothing {where}",
+                             f"list the units that run {where} of it")
+        for n in group:
+            if n not in names:
+                raise InputError(f"{key}.{side}", f"no unit named '{n}'",
+                                 f"use one of {', '.join(names)}")
+    both = set(h.upstream_units) & set(h.downstream_units)
+    if both:
+        raise InputError(key, f"unit '{sorted(both)[0]}' is both upstream and downstream",
+                         "list each unit on one side only")
+    missing = [n for n in names if n not in h.upstream_units and n not in h.downstream_units]
+    if missing:
+        raise InputError(key, f"unit '{missing[0]}' is on neither side of the shared header",
+                         "list every unit under upstream_units or downstream_units")
+    cooler = _cooler(h.cooler, key + ".cooler")
+    lo = (parse_quantity(h.pressure_min, Kind.PRESSURE, key + ".pressure_min", atmospheric=atm)
+          if h.pressure_min is not None else p1 * 1.02)
+    hi = (parse_quantity(h.pressure_max, Kind.PRESSURE, key + ".pressure_max", atmospheric=atm)
+          if h.pressure_max is not None else (p2 + cooler.pressure_drop) * 0.98)
+    if not p1 < lo < hi:
+        raise InputError(key + ".pressure_min", f"{lo / 1e3:.0f} kPa is not between the suction "
+                         f"pressure {p1 / 1e3:.0f} kPa and pressure_max {hi / 1e3:.0f} kPa",
+                         "give a header pressure range between the station's headers")
+    if not hi - cooler.pressure_drop < p2:
+        raise InputError(key + ".pressure_max", f"{hi / 1e3:.0f} kPa less the cooler's pressure "
+                         f"drop is not below the discharge pressure {p2 / 1e3:.0f} kPa",
+                         "give a header pressure below the discharge header's")
+    return InterstageHeader(tuple(h.upstream_units), tuple(h.downstream_units), cooler, lo, hi)
+
+
+def _cooler(c: CoolerSchema, key: str) -> Cooler:
+    return Cooler(
+        parse_quantity(c.outlet_temperature, Kind.TEMPERATURE, key + ".outlet_temperature"),
+        parse_quantity(c.pressure_drop, Kind.PRESSURE_DIFFERENCE, key + ".pressure_drop"))
 
 
 def _gas(g: GasSchema, here: Path, p: str) -> Gas:
@@ -342,7 +455,25 @@ def _fraction(text: Quantity, field_name: str) -> float:
     return parse_quantity(text, Kind.DIMENSIONLESS, field_name)
 
 
-def _train(u: UnitSchema, i: int, here: Path, p: str, load_map) -> Train:
+def _speed_range(driver, maps_and_ratios, rated, smin, smax, key: str) -> tuple[float, float]:
+    """Speed range [1/s]: the driver's, the maps' (over their ratios) and 105 % of rated."""
+    lo = max([driver.speed_min] + [m.speed_min / r for m, r in maps_and_ratios])
+    hi = min([driver.speed_max] + [m.speed_max / r for m, r in maps_and_ratios])
+    if rated is not None:
+        hi = min(hi, speed_limits_from_rated(parse_quantity(rated, Kind.SPEED,
+                                                            key + ".rated_speed"))[0])
+    if smin is not None:
+        lo = parse_quantity(smin, Kind.SPEED, key + ".speed_min")
+    if smax is not None:
+        hi = parse_quantity(smax, Kind.SPEED, key + ".speed_max")
+    if not lo < hi:
+        raise InputError(key + ".speed_min", f"minimum speed {lo * 60:.0f} rpm is not below "
+                         f"maximum {hi * 60:.0f} rpm (after the driver's and map's ranges)",
+                         "check the speed limits of the driver and the map")
+    return lo, hi
+
+
+def _train(u: UnitSchema, i: int, here: Path, p: str, load_map, atm: float) -> Train:
     key = f"{p}units[{i}]"
     if (u.map is None) == (u.sections is None):
         raise InputError(key, "give either 'map' (one section) or 'sections'", None)
@@ -355,41 +486,42 @@ def _train(u: UnitSchema, i: int, here: Path, p: str, load_map) -> Train:
                             t_max),)
     else:
         if not u.sections:
-            raise InputError(key + ".sections", "a train needs at least one section")
+            raise InputError(key + ".sections", "a train needs at least one section",
+                             "list its sections in flow order, each with a map")
         sections = tuple(_section(sec, j, here, key, t_max, load_map)
                          for j, sec in enumerate(u.sections))
-    driver = driver_from_dict(u.driver, key + ".driver")
-    first = sections[0]
-    map_lo = first.compressor_map.speed_min / first.speed_ratio
-    map_hi = first.compressor_map.speed_max / first.speed_ratio
-    lo = max(driver.speed_min, map_lo)
-    hi = min(driver.speed_max, map_hi)
-    if u.rated_speed is not None:
-        hi = min(hi, speed_limits_from_rated(parse_quantity(u.rated_speed, Kind.SPEED,
-                                                            key + ".rated_speed"))[0])
-    if u.speed_min is not None:
-        lo = parse_quantity(u.speed_min, Kind.SPEED, key + ".speed_min")
-    if u.speed_max is not None:
-        hi = parse_quantity(u.speed_max, Kind.SPEED, key + ".speed_max")
-    if not lo < hi:
-        raise InputError(key + ".speed_min", f"minimum speed {lo * 60:.0f} rpm is not below "
-                         f"maximum {hi * 60:.0f} rpm (after the driver's and map's ranges)",
-                         "check the speed limits of the driver and the map")
     max_power = (parse_quantity(u.max_power, Kind.POWER, key + ".max_power")
                  if u.max_power is not None else None)
-    return Train(u.name, sections, driver, lo, hi, max_power,
-                 _fraction(u.mechanical_loss, key + ".mechanical_loss"),
-                 UnitStatus(u.status), u.group)
+    loss = _fraction(u.mechanical_loss, key + ".mechanical_loss")
+    if sections[0].drive is not None:
+        if u.driver is not None or any(s.drive is None for s in sections):
+            raise InputError(key + ".driver", "some sections have their own driver and the "
+                             "unit has one too, or some sections have none",
+                             "give a driver to every section and none to the unit, or one "
+                             "driver to the unit and none to the sections")
+        if len(sections) != 2:
+            raise InputError(key + ".sections", f"{len(sections)} separately driven sections",
+                             "give two (an interstage pressure is searched between them); "
+                             "put longer chains on a shared shaft or a shared header")
+        first = sections[0].drive
+        return Train(u.name, sections, None, first.speed_min, first.speed_max, max_power, loss,
+                     UnitStatus(u.status), u.group)
+    if u.driver is None:
+        where = ".sections[0].driver" if u.sections else ".driver"
+        raise InputError(key + where, "is missing", "give the unit's driver ('kind' and its "
+                         "fields, docs/drivers.md), or one to every section")
+    if any(s.drive is not None for s in sections):
+        raise InputError(key + ".driver", "the unit has a driver and some sections have their "
+                         "own", "give the driver to the unit only, or to every section only")
+    driver = driver_from_dict(u.driver, key + ".driver")
+    lo, hi = _speed_range(driver, [(s.compressor_map, s.speed_ratio) for s in sections],
+                          u.rated_speed, u.speed_min, u.speed_max, key)
+    return Train(u.name, sections, driver, lo, hi, max_power, loss, UnitStatus(u.status), u.group)
 
 
 def _section(sec: SectionSchema, j: int, here: Path, key: str, t_max, load_map) -> Section:
     k = f"{key}.sections[{j}]"
-    cooler = None
-    if sec.cooler is not None:
-        cooler = Cooler(parse_quantity(sec.cooler.outlet_temperature, Kind.TEMPERATURE,
-                                       k + ".cooler.outlet_temperature"),
-                        parse_quantity(sec.cooler.pressure_drop, Kind.PRESSURE_DIFFERENCE,
-                                       k + ".cooler.pressure_drop"))
+    cooler = None if sec.cooler is None else _cooler(sec.cooler, k + ".cooler")
     limit = (parse_quantity(sec.max_discharge_temperature, Kind.TEMPERATURE,
                             k + ".max_discharge_temperature")
              if sec.max_discharge_temperature is not None else t_max)
@@ -397,9 +529,23 @@ def _section(sec: SectionSchema, j: int, here: Path, key: str, t_max, load_map) 
     if not ratio > 0:
         raise InputError(k + ".speed_ratio", f"{ratio:g} is not a positive ratio",
                          "give section speed / shaft speed, e.g. 1.0")
-    return Section(sec.name, _map(load_map, here / sec.map, k + ".map"), ratio,
-                   _fraction(sec.surge_control_offset, k + ".surge_control_offset"), limit,
-                   cooler)
+    cmap = _map(load_map, here / sec.map, k + ".map")
+    drive = None
+    if sec.driver is not None:
+        driver = driver_from_dict(sec.driver, k + ".driver")
+        lo, hi = _speed_range(driver, [(cmap, 1.0)], sec.rated_speed, sec.speed_min,
+                              sec.speed_max, k)
+        power = (parse_quantity(sec.max_power, Kind.POWER, k + ".max_power")
+                 if sec.max_power is not None else None)
+        drive = SectionDrive(driver, lo, hi, power)
+    else:
+        for name in ("speed_min", "speed_max", "rated_speed", "max_power"):
+            if getattr(sec, name) is not None:
+                raise InputError(f"{k}.{name}", "belongs to a separately driven section",
+                                 "give it on the unit, or give this section its own driver")
+    return Section(sec.name, cmap, ratio, _fraction(sec.surge_control_offset,
+                                                    k + ".surge_control_offset"), limit,
+                   cooler, drive)
 
 
 def _map(load_map, path: Path, field_name: str):
@@ -412,7 +558,7 @@ def schema_markdown() -> str:
     """The case schema as Markdown tables (key, type, default, description)."""
     lines = []
     for model in (CaseSchema, SiteSchema, GasSchema, HeaderSchema, UnitSchema, SectionSchema,
-                  CoolerSchema, EconomicsSchema):
+                  CoolerSchema, InterstageHeaderSchema, EconomicsSchema):
         lines += [f"### {model.__name__.removesuffix('Schema')}", "", model.__doc__ or "", "",
                   "| key | required | default | description |", "|---|---|---|---|"]
         for name, info in model.model_fields.items():

@@ -156,6 +156,11 @@ def _discharge_schultz(gas: Gas, suction: GasState, ideal: GasState, eta: float)
     t_lo = ideal.temperature + 1e-6
     work = (ideal.enthalpy - suction.enthalpy) / max(eta, 0.05)
     t_hi = gas.temperature_from_enthalpy(p2, suction.enthalpy + 1.3 * work, ideal.temperature)
+    for _ in range(20):
+        if residual(t_hi) < 0.0:
+            break
+        work *= 1.5
+        t_hi = gas.temperature_from_enthalpy(p2, suction.enthalpy + 1.3 * work, t_hi)
     t2 = brentq(residual, t_lo, t_hi, xtol=1e-9, rtol=1e-13)
     return gas.state(p2, t2)
 

@@ -1,6 +1,7 @@
 """Piecewise-linear unit curves written as Pyomo constraints, and the convexity tests they need.
 
-Two exact formulations, chosen per unit by :func:`trainopt.model.build_model`:
+Two exact formulations, chosen per unit by :func:`trainopt.model.build_model` (by default
+the second for every curve, measured the faster):
 
 - the convex combination (``hull_*`` components), with no binary beyond the unit's
   run/stop binary, exact when the curve is convex;

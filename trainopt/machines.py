@@ -5,6 +5,10 @@ ratios, one driver), with an interstage cooler after each section but the last a
 recycle loop per section. A plain unit is a train of one section. Speeds are stated at the
 shaft of the first section; section ``k`` turns at ``speed_ratio[k]`` times that.
 
+Series sections may instead each have their own driver (a :class:`SectionDrive`): then
+the train has no shared shaft, each section's speed is free within its own range, and
+the interstage pressure is free too (see ``docs/series.md``).
+
 Speed limits follow the API 617 definitions as commonly quoted (common practice):
 maximum continuous speed = 105 % of rated speed, trip speed = 110 % of maximum continuous
 speed (API 617, 8th edition, 2014, clause 1.5 definitions).
@@ -62,6 +66,32 @@ class Cooler:
 
 
 @dataclass(frozen=True)
+class SectionDrive:
+    """A section's own driver, for series sections that do not share a shaft.
+
+    Parameters
+    ----------
+    driver : object
+        A driver from :mod:`trainopt.drivers`.
+    speed_min, speed_max : float
+        The section's speed range [1/s].
+    max_power : float or None
+        Extra shaft-power limit [W] below the driver's own.
+    """
+
+    driver: object
+    speed_min: float
+    speed_max: float
+    max_power: float | None = None
+
+    def __post_init__(self):
+        if not 0 < self.speed_min < self.speed_max:
+            raise InputError("section.speed_min",
+                             f"minimum speed {self.speed_min * 60:.0f} rpm is not below "
+                             f"maximum {self.speed_max * 60:.0f} rpm", "give speed_min < speed_max")
+
+
+@dataclass(frozen=True)
 class Section:
     """One compressor section: a fitted map and its own limits.
 
@@ -79,6 +109,8 @@ class Section:
         Highest allowed discharge temperature [K].
     cooler : Cooler or None
         Cooler after this section (to the next section's suction).
+    drive : SectionDrive or None
+        The section's own driver; None on a shared shaft.
     """
 
     name: str
@@ -87,6 +119,7 @@ class Section:
     surge_control_offset: float = DEFAULT_SURGE_CONTROL_OFFSET
     max_discharge_temperature: float | None = None
     cooler: Cooler | None = None
+    drive: SectionDrive | None = None
 
     def __post_init__(self):
         if not self.speed_ratio > 0:
@@ -109,10 +142,12 @@ class Train:
         Unit or train name.
     sections : tuple of Section
         In flow order.
-    driver : object
-        A driver from :mod:`trainopt.drivers`.
+    driver : object or None
+        A driver from :mod:`trainopt.drivers`; None when every section has its own
+        (:class:`SectionDrive`).
     speed_min, speed_max : float
-        Shaft speed range at the first section [1/s].
+        Shaft speed range at the first section [1/s] (the first section's own range when
+        the sections are separately driven).
     max_power : float or None
         Extra shaft-power limit [W] below the driver's own.
     mechanical_loss : float
@@ -144,6 +179,19 @@ class Train:
         names = [s.name for s in self.sections]
         if len(set(names)) != len(names):
             raise InputError(f"units.{self.name}.sections", "section names repeat")
+        own = [s.drive is not None for s in self.sections]
+        if any(own) and (self.driver is not None or not all(own)):
+            raise InputError(f"units.{self.name}.driver",
+                             "some sections have their own driver and some share the shaft",
+                             "give a driver to every section and none to the unit, or one "
+                             "driver to the unit and none to the sections")
+        if self.driver is None and not any(own):
+            raise InputError(f"units.{self.name}.driver", "is missing", "give the driver")
+
+    @property
+    def separately_driven(self) -> bool:
+        """True when every section has its own driver (no shared shaft)."""
+        return self.driver is None
 
     @property
     def is_single_section(self) -> bool:

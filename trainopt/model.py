@@ -19,7 +19,6 @@ files and never calls a solver; :mod:`trainopt.solve` does that.
 from __future__ import annotations
 
 from collections.abc import Sequence
-from dataclasses import dataclass
 from enum import Enum
 
 import numpy as np
@@ -32,6 +31,7 @@ from trainopt.formulation import (
     convex_blocks,
     is_convex,
 )
+from trainopt.unit_curve import UnitCurve, UnitStatus, check_curves, check_demand
 
 __all__ = [
     "CONVEXITY_RTOL",
@@ -41,6 +41,7 @@ __all__ = [
     "build_model",
     "check_curves",
     "check_demand",
+    "cost_scale_of",
     "is_convex",
     "tie_break_weight",
 ]
@@ -48,178 +49,47 @@ __all__ = [
 CONVEXITY_RTOL = 1e-9
 """Default relative tolerance [-] of the convexity test on a curve's segment slopes."""
 
-RECYCLE_TIE_BREAK = 1e-6
-"""Objective weight of recycle [-], relative to the station's typical cost slope."""
+RECYCLE_TIE_BREAK = 1e-4
+"""Objective weight of recycle [-], relative to the station's typical cost slope.
 
-SHARE_TIE_BREAK = 1e-7
-"""Objective weight of unequal flow between identical units [-], relative as above."""
-
-
-class UnitStatus(str, Enum):
-    """Whether a unit may be started or stopped by the optimiser."""
-
-    AVAILABLE = "available"
-    OFFLINE = "offline"
-    MUST_RUN = "must_run"
+Recycled gas already costs through the curve (it is compressed); this small extra charge
+only settles ties, e.g. on flat stretches of a curve. It is large enough to stay above
+HiGHS's dual feasibility tolerance (1e-7) once costs are scaled to order one.
+"""
 
 
 class Formulation(str, Enum):
     """How the piecewise-linear unit curves enter the model.
 
-    ``AUTO`` uses the convex combination for every convex curve and the incremental form
-    by convex blocks for the others: exact on every curve, with the fewest binaries.
-    ``BLOCK_INCREMENTAL`` uses the incremental form by convex blocks on every curve.
-    ``INCREMENTAL`` is the textbook incremental form with one binary per inner breakpoint;
-    it is kept for comparison. ``CONVEX_COMBINATION`` needs every curve to be convex.
+    ``AUTO`` (the default) writes every curve in the incremental form by convex blocks:
+    exact on any curve, a binary only at each concave kink (none on a convex curve), and
+    measured the fastest (``docs/formulation.md``). ``HYBRID`` uses the convex
+    combination for convex curves and the incremental form by convex blocks for the
+    others. ``INCREMENTAL`` is the textbook incremental form with one binary per inner
+    breakpoint, kept for comparison. ``CONVEX_COMBINATION`` needs every curve convex.
     """
 
     AUTO = "auto"
-    BLOCK_INCREMENTAL = "block_incremental"
+    HYBRID = "hybrid"
     INCREMENTAL = "incremental"
     CONVEX_COMBINATION = "convex_combination"
 
 
-@dataclass(frozen=True, eq=False)
-class UnitCurve:
-    """One unit's least cost against its through-flow, at today's conditions.
-
-    Parameters
-    ----------
-    name : str
-        Unit name, unique in the station.
-    flow : numpy.ndarray
-        Through-flow breakpoints [kg/s], strictly increasing; ``flow[0]`` is the least
-        through-flow without recycle (surge control line or minimum speed), ``flow[-1]``
-        the largest (first of stonewall, maximum speed, driver power, discharge
-        temperature).
-    cost : numpy.ndarray
-        Objective at each breakpoint [W of shaft power, W of fuel, or currency/s]; same
-        length as ``flow``.
-    status : UnitStatus or str
-        ``"available"``, ``"offline"`` or ``"must_run"``.
-    group : str or None
-        Units sharing a group key have identical curves and status; the model breaks
-        their symmetry.
-
-    Raises
-    ------
-    InputError
-        If a field is malformed (the message names the unit and the field).
-    """
-
-    name: str
-    flow: np.ndarray
-    cost: np.ndarray
-    status: UnitStatus | str = UnitStatus.AVAILABLE
-    group: str | None = None
-
-    def __post_init__(self):
-        if not isinstance(self.name, str) or not self.name.strip():
-            raise InputError("unit name", f"{self.name!r} is not a name", "give a non-empty text")
-        field = f"units.{self.name}"
-        flow = _as_vector(self.flow, f"{field}.flow")
-        cost = _as_vector(self.cost, f"{field}.cost")
-        if flow.size < 2:
-            raise InputError(f"{field}.flow", f"has {flow.size} breakpoint(s)",
-                             "give at least two (least and largest through-flow)")
-        if cost.size != flow.size:
-            raise InputError(f"{field}.cost", f"has {cost.size} values for {flow.size} flows",
-                             "give one cost per flow breakpoint")
-        if flow[0] < 0.0:
-            raise InputError(f"{field}.flow", f"starts at {flow[0]:g} kg/s",
-                             "through-flows are zero or positive")
-        steps = np.diff(flow)
-        if np.any(steps <= 0.0):
-            k = int(np.argmax(steps <= 0.0))
-            raise InputError(f"{field}.flow",
-                             f"is not strictly increasing at breakpoint {k + 1} "
-                             f"({flow[k]:g} then {flow[k + 1]:g} kg/s)",
-                             "sort the breakpoints and drop repeated flows")
-        try:
-            status = UnitStatus(self.status)
-        except ValueError:
-            choices = ", ".join(s.value for s in UnitStatus)
-            raise InputError(f"{field}.status", f"{self.status!r} is not a status",
-                             f"use one of {choices}") from None
-        if self.group is not None and not isinstance(self.group, str):
-            raise InputError(f"{field}.group", f"{self.group!r} is not a text key",
-                             "give a text key or None")
-        flow.flags.writeable = False
-        cost.flags.writeable = False
-        object.__setattr__(self, "flow", flow)
-        object.__setattr__(self, "cost", cost)
-        object.__setattr__(self, "status", status)
-
-    @property
-    def flow_min(self) -> float:
-        """Least through-flow without recycle [kg/s]."""
-        return float(self.flow[0])
-
-    @property
-    def flow_max(self) -> float:
-        """Largest through-flow [kg/s]."""
-        return float(self.flow[-1])
-
-    def cost_at(self, through_flow: float) -> float:
-        """Piecewise-linear cost at a through-flow inside the curve [same unit as cost]."""
-        return float(np.interp(through_flow, self.flow, self.cost))
-
-
-def _as_vector(values, field: str) -> np.ndarray:
-    try:
-        array = np.array(values, dtype=float)
-    except (TypeError, ValueError):
-        raise InputError(field, "is not a list of numbers", "give numbers") from None
-    if array.ndim != 1:
-        raise InputError(field, f"has shape {array.shape}", "give a flat list of numbers")
-    if not np.all(np.isfinite(array)):
-        raise InputError(field, "holds a missing or infinite value", "give finite numbers")
-    return array
-
-
-def check_curves(curves: Sequence[UnitCurve]) -> list[UnitCurve]:
-    """Check a station's curves as a whole and return them as a list.
+def cost_scale_of(curves: Sequence[UnitCurve]) -> float:
+    """Power of ten nearest the largest absolute breakpoint cost [cost unit].
 
     Parameters
     ----------
     curves : sequence of UnitCurve
-        One curve per unit.
+        The station's curves.
 
     Returns
     -------
-    list of UnitCurve
-        The same curves.
-
-    Raises
-    ------
-    InputError
-        If there is no curve, a name repeats, or units of one group differ in curve or
-        status.
+    float
+        ``10 ** round(log10(max |cost|))``, or 1.0 if every cost is zero.
     """
-    curves = list(curves)
-    if not curves:
-        raise InputError("units", "no unit curve was given", "give at least one unit")
-    for curve in curves:
-        if not isinstance(curve, UnitCurve):
-            raise InputError("units", f"{curve!r} is not a UnitCurve", "build one per unit")
-    names = [c.name for c in curves]
-    repeated = sorted({n for n in names if names.count(n) > 1})
-    if repeated:
-        raise InputError("units", f"unit name(s) {', '.join(repeated)} repeat",
-                         "give each unit its own name")
-    first_of_group: dict[str, UnitCurve] = {}
-    for curve in curves:
-        if curve.group is None:
-            continue
-        first = first_of_group.setdefault(curve.group, curve)
-        same = (np.array_equal(first.flow, curve.flow) and np.array_equal(first.cost, curve.cost)
-                and first.status == curve.status)
-        if not same:
-            raise InputError(f"units.{curve.name}.group",
-                             f"unit {curve.name} is in group {curve.group!r} but its curve or "
-                             f"status differs from unit {first.name}",
-                             "group only units with identical curves and status")
-    return curves
+    largest = max(float(np.max(np.abs(c.cost))) for c in curves)
+    return 10.0 ** round(np.log10(largest)) if largest > 0.0 else 1.0
 
 
 def tie_break_weight(curves: Sequence[UnitCurve]) -> float:
@@ -288,19 +158,24 @@ def build_model(curves: Sequence[UnitCurve], demand: float, *,
         group_flow_order[u]:    m[u] >= m[v]
 
     and the curve constraints of :mod:`trainopt.formulation` tie ``c[u]`` to ``m[u]``.
-    The objective ``total_cost`` is ``sum_u c[u]`` plus two tie-breaks far below any
-    solver tolerance: ``1e-6 * s * sum_u r[u]`` (``s`` from :func:`tie_break_weight`),
-    so recycle is zero whenever the curves leave a choice, and ``1e-7 * s`` times the
-    flow spread inside each group, so identical units share equally on flat stretches.
+    Costs enter divided by ``model.cost_scale`` (a power of ten near the largest
+    breakpoint cost, see :func:`cost_scale_of`), so the solver sees numbers of order one;
+    ``c[u]`` and the objective are in those scaled units. The objective ``total_cost`` is
+    ``sum_u c[u] + 1e-4 * s * sum_u r[u]``, ``s`` the typical slope of
+    :func:`tie_break_weight`: the recycle term only settles ties, so recycle is zero
+    wherever the curves leave a choice.
     ``recycle_upper`` is a modelling decision: a unit never recycles more than it needs
-    to reach its least through-flow. Variables ``recycle_bound[u]`` (a mutable upper
+    to reach its least through-flow. Parameters ``recycle_bound[u]`` (a mutable upper
     bound on ``r[u]``) let the solve layer forbid recycle in a second pass.
     """
     curves = check_curves(curves)
     demand = check_demand(demand)
     formulation = _as_formulation(formulation)
     names = [c.name for c in curves]
-    by_name = {c.name: c for c in curves}
+    cost_scale = cost_scale_of(curves)
+    by_name = {c.name: UnitCurve(c.name, c.flow, c.cost / cost_scale, c.status, c.group)
+               for c in curves}
+    curves = [by_name[n] for n in names]
     convex = {c.name: is_convex(c.flow, c.cost, convexity_rtol) for c in curves}
     if formulation is Formulation.CONVEX_COMBINATION and not all(convex.values()):
         bad = ", ".join(n for n in names if not convex[n])
@@ -309,6 +184,7 @@ def build_model(curves: Sequence[UnitCurve], demand: float, *,
                          "use the automatic formulation")
 
     m = pyo.ConcreteModel(name="station_dispatch")
+    m.cost_scale = cost_scale
     m.UNITS = pyo.Set(initialize=names, ordered=True, doc="units [-]")
     m.flow_min = pyo.Param(m.UNITS, initialize={n: by_name[n].flow_min for n in names},
                            doc="least through-flow without recycle [kg/s]")
@@ -329,7 +205,8 @@ def build_model(curves: Sequence[UnitCurve], demand: float, *,
                         doc="flow returned through the recycle valve [kg/s]")
     m.net_flow = pyo.Var(m.UNITS, bounds=lambda _, n: (0.0, by_name[n].flow_max),
                          doc="flow delivered to the discharge header [kg/s]")
-    m.unit_cost = pyo.Var(m.UNITS, bounds=cost_bounds, doc="unit cost on its curve")
+    m.unit_cost = pyo.Var(m.UNITS, bounds=cost_bounds,
+                          doc="unit cost on its curve [cost unit / cost_scale]")
     for curve in curves:
         if curve.status is UnitStatus.OFFLINE:
             m.run[curve.name].fix(0)
@@ -356,15 +233,15 @@ def build_model(curves: Sequence[UnitCurve], demand: float, *,
         m.GROUP_PAIRS, rule=lambda mm, a, b: mm.through_flow[a] >= mm.through_flow[b])
 
     if formulation is Formulation.AUTO:
+        hull = []
+        blocks = {n: convex_blocks(by_name[n].flow, by_name[n].cost, convexity_rtol)
+                  for n in names}
+    elif formulation is Formulation.HYBRID:
         hull = [n for n in names if convex[n]]
         blocks = {n: convex_blocks(by_name[n].flow, by_name[n].cost, convexity_rtol)
                   for n in names if not convex[n]}
     elif formulation is Formulation.CONVEX_COMBINATION:
         hull, blocks = names, {}
-    elif formulation is Formulation.BLOCK_INCREMENTAL:
-        hull = []
-        blocks = {n: convex_blocks(by_name[n].flow, by_name[n].cost, convexity_rtol)
-                  for n in names}
     else:
         hull = []
         blocks = {n: [[s] for s in range(by_name[n].flow.size - 1)] for n in names}
@@ -374,10 +251,8 @@ def build_model(curves: Sequence[UnitCurve], demand: float, *,
     scale = tie_break_weight(curves)
     m.total_cost = pyo.Objective(
         expr=sum(m.unit_cost[n] for n in names)
-        + RECYCLE_TIE_BREAK * scale * sum(m.recycle[n] for n in names)
-        + SHARE_TIE_BREAK * scale * sum(m.through_flow[a] - m.through_flow[b]
-                                        for a, b in pairs),
-        sense=pyo.minimize, doc="sum of unit costs plus tie-breaks")
+        + RECYCLE_TIE_BREAK * scale * sum(m.recycle[n] for n in names),
+        sense=pyo.minimize, doc="sum of unit costs plus a recycle tie-break")
     binaries = sum(len(b) - 1 for b in blocks.values())
     m.formulation_summary = (
         f"{formulation.value}: convex combination for {len(hull)} unit(s), incremental by "
@@ -391,36 +266,6 @@ def _group_pairs(curves: Sequence[UnitCurve]) -> list[tuple[str, str]]:
         if c.group is not None and c.status is not UnitStatus.OFFLINE:
             members.setdefault(c.group, []).append(c.name)
     return [(g[i], g[i + 1]) for g in members.values() for i in range(len(g) - 1)]
-
-
-def check_demand(demand) -> float:
-    """Check a station demand and return it as a float [kg/s].
-
-    Parameters
-    ----------
-    demand : float
-        Station net flow [kg/s].
-
-    Returns
-    -------
-    float
-        The demand [kg/s].
-
-    Raises
-    ------
-    InputError
-        If it is not a finite number of zero or more.
-    """
-    try:
-        value = float(demand)
-    except (TypeError, ValueError):
-        raise InputError("demand", f"{demand!r} is not a number", "give a flow in kg/s") from None
-    if not np.isfinite(value):
-        raise InputError("demand", f"{value} is not finite", "give a flow in kg/s")
-    if value < 0.0:
-        raise InputError("demand", f"{value:g} kg/s is negative",
-                         "give a station flow of zero or more")
-    return value
 
 
 def _as_formulation(formulation) -> Formulation:

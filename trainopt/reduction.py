@@ -182,6 +182,12 @@ class LeastPowerCurve:
     sample_flow, sample_shaft_power, sample_energy_input : numpy.ndarray
         The fine sample of the true curve [kg/s], [W], [W] the breakpoints were chosen
         from (about 200 points), used to refine a split between breakpoints.
+    low_section, high_section : str
+        For a series train, the section (or ``driver``) whose limit sets each end; empty
+        for a single-section unit.
+    cost_rate, sample_cost_rate : numpy.ndarray or None
+        Energy cost [currency/s] at the breakpoints and on the fine sample, for trains
+        whose sections have drivers of different prices; None otherwise.
     """
 
     name: str
@@ -197,6 +203,10 @@ class LeastPowerCurve:
     sample_flow: np.ndarray = field(default_factory=lambda: np.array([]))
     sample_shaft_power: np.ndarray = field(default_factory=lambda: np.array([]))
     sample_energy_input: np.ndarray = field(default_factory=lambda: np.array([]))
+    low_section: str = ""
+    high_section: str = ""
+    cost_rate: np.ndarray | None = None
+    sample_cost_rate: np.ndarray | None = None
 
     @property
     def min_flow(self) -> float:
@@ -298,7 +308,7 @@ def reduce_unit(train: Train, duty: Duty, ambient_temperature: float,
         bad |= v
     ok = np.flatnonzero(~bad)
     if ok.size == 0:
-        return _infeasible(train, duty, op, viol)
+        return _infeasible(train, duty, op, viol, ambient_temperature)
     runs = np.split(ok, np.flatnonzero(np.diff(ok) > 1) + 1)
     run = max(runs, key=len)
     i0, i1 = run[0], run[-1]
@@ -327,7 +337,8 @@ def _flow_span(cmap) -> tuple[float, float]:
     return float(lo), float(hi)
 
 
-def _infeasible(train: Train, duty: Duty, op: Operation, viol) -> LeastPowerCurve:
+def _infeasible(train: Train, duty: Duty, op: Operation, viol, ambient: float
+                ) -> LeastPowerCurve:
     """A curve marking the unit unable to meet the duty, with the reason in words."""
     head = float(duty.head(0.8))
     cmap = train.sections[0].compressor_map
@@ -340,7 +351,20 @@ def _infeasible(train: Train, duty: Duty, op: Operation, viol) -> LeastPowerCurv
         worst = max(counts, key=counts.get)
         reason = f"no through-flow meets every limit; the {LIMIT_NAMES[worst]} binds first"
         if worst == "power":
-            short = np.nanmin(op.shaft_power - op.available_power)
+            others = np.zeros(len(op.mass_flow), bool)
+            for key, v in viol.items():
+                if key != "power":
+                    others |= v
+            gap = np.where(others, np.nan, op.shaft_power - op.available_power)
+            short = np.nanmin(gap) if np.isfinite(gap).any() else np.nanmin(
+                op.shaft_power - op.available_power)
+            # The grid's first point right of the surge control line lies a little past it:
+            # evaluate the control-line flow itself, where the power need is least.
+            m_scl = np.nanmin(op.control_line_flow) * duty.suction.density
+            edge = operate(train, duty, m_scl, ambient)
+            edge_viol = edge.violations(train)
+            if not any(v[0] for k, v in edge_viol.items() if k not in ("power", "control_line")):
+                short = min(short, float(edge.shaft_power[0] - edge.available_power[0]))
             reason += f" (short of power by at least {short / 1e3:.0f} kW)"
     empty = np.array([])
     return LeastPowerCurve(train.name, empty, empty, empty, worst_or(viol), "", True, 0.0,

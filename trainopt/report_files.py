@@ -40,21 +40,24 @@ def write_result_files(result: StationResult, out_dir: str | Path) -> dict[str, 
         if not row.get("running"):
             continue
         train = result.case.train(row["name"])
-        section = train.sections[0]
+        # A series train has one row per section (docs/series.md): plot that section.
+        name = row.get("section") if isinstance(row.get("section"), str) else None
+        section = next((s for s in train.sections if s.name == name), train.sections[0])
+        tag = f"{row['name']}_{name}" if name else row["name"]
         fig = plot_map(section.compressor_map, control_line_offset=section.surge_control_offset)
         ax = fig.axes[0]
         head = row["polytropic_head_kJ_kg"] if row["map_basis"] == "polytropic" else \
             row["isentropic_head_kJ_kg"]
         ax.plot([row["inlet_volume_flow_m3_h"] / 3600.0], [head], marker="D", markersize=11,
                 color="#d62f8a", markeredgecolor="black", zorder=10, label="operating point")
-        ax.annotate(f"{row['name']}: {row['speed_rpm']:.0f} rpm\n"
+        ax.annotate(f"{tag}: {row['speed_rpm']:.0f} rpm\n"
                     f"control line +{row['control_line_margin_pct']:.1f} %\n"
                     f"surge +{row['surge_margin_pct']:.1f} %\n"
                     f"power margin {row['driver_power_margin_pct']:.1f} %",
                     (row["inlet_volume_flow_m3_h"] / 3600.0, head), xytext=(14, 14),
                     textcoords="offset points", fontsize=9,
                     bbox={"boxstyle": "round", "fc": "white", "alpha": 0.85})
-        path = out / f"map_{row['name']}.png"
+        path = out / f"map_{tag}.png"
         fig.savefig(path, dpi=110)
-        written[f"map_{row['name']}"] = path
+        written[f"map_{tag}"] = path
     return written

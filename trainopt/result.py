@@ -15,6 +15,11 @@ import pandas as pd
 from trainopt.compression import compress
 from trainopt.maps import stonewall_margin
 
+PER_TRAIN_COLUMNS = ("net_mass_flow_kg_s", "through_mass_flow_kg_s", "recycle_kg_s",
+                     "net_standard_flow_MMSCMD", "train_shaft_power_kW",
+                     "train_driver_input_kW")
+"""Columns that repeat a train's value on each of its section rows (counted once in sums)."""
+
 CAUTION = ("Advisory only: trainopt does not replace the anti-surge controller, the "
            "vendor's data or an engineer's judgement; follow local codes and licensed practice.")
 
@@ -118,7 +123,10 @@ class StationResult:
     reason : str
         Why infeasible, in words; empty otherwise.
     units : pandas.DataFrame
-        One row per unit (see ``docs/results.md``).
+        One row per unit, or per section of a series train (see ``docs/results.md``
+        and ``docs/series.md``).
+    header : dict
+        For a station with a shared interstage header: its pressure and the search.
     """
 
     case: object
@@ -129,6 +137,7 @@ class StationResult:
     units: pd.DataFrame
     solver: dict = field(default_factory=dict)
     baselines: dict = field(default_factory=dict)
+    header: dict = field(default_factory=dict)
 
     @classmethod
     def from_rows(cls, case, demand: float, rows: list[dict], objective: str) -> StationResult:
@@ -142,9 +151,23 @@ class StationResult:
         return cls(case, "infeasible", reason, demand, objective, pd.DataFrame(rows))
 
     def _sum(self, column: str) -> float:
+        """Station total of a column, counting a train's per-train columns once."""
         if column not in self.units:
             return 0.0
-        return float(np.nansum(self.units[column].to_numpy(dtype=float)))
+        table = self.units
+        if column in PER_TRAIN_COLUMNS and "section" in table:
+            table = table.drop_duplicates("name")
+        return float(np.nansum(table[column].to_numpy(dtype=float)))
+
+    def total(self, column: str) -> float:
+        """Station total of a unit column, a series train's per-train columns counted once.
+
+        Parameters
+        ----------
+        column : str
+            A key of the unit rows, e.g. ``"recycle_kg_s"`` (same unit as the column).
+        """
+        return self._sum(column)
 
     @property
     def total_shaft_power(self) -> float:
@@ -188,4 +211,6 @@ class StationResult:
             out["solver"] = self.solver
         if self.baselines:
             out["baselines"] = self.baselines
+        if self.header:
+            out["interstage_header"] = self.header
         return out

@@ -12,10 +12,9 @@ demand outside gives an ``"infeasible"`` result whose ``reason`` says so in word
 the station capacity in kg/s. A solver status other than optimal becomes either such a
 result or a :class:`DispatchSolveError`; an empty answer is never returned.
 
-Recycle is zero whenever the curves leave the choice (a tie-break in the objective), and
-also whenever a dispatch without recycle is within the requested MIP gap of the proven
-bound: if the first solve recycles, a second solve with recycle forbidden is tried and
-kept when it is good enough.
+No unit recycles unless it must (:class:`RecyclePolicy`): whenever some commitment
+carries the demand without recycle, the answer is the least-cost dispatch among those;
+a least-cost policy that recycles where that is cheaper is available too.
 """
 
 from __future__ import annotations
@@ -23,14 +22,20 @@ from __future__ import annotations
 import math
 import time
 from collections.abc import Sequence
-from dataclasses import asdict, dataclass
+from typing import NamedTuple
 
 import numpy as np
 import pyomo.environ as pyo
 from pyomo.contrib.solver.common.factory import SolverFactory
 from pyomo.contrib.solver.common.results import SolutionStatus, TerminationCondition
 
-from trainopt.errors import InfeasibleError, InputError, TrainoptError
+from trainopt.dispatch_result import (
+    DispatchResult,
+    DispatchSolveError,
+    RecyclePolicy,
+    station_range_reason,
+)
+from trainopt.errors import InputError
 from trainopt.model import (
     CONVEXITY_RTOL,
     Formulation,
@@ -39,120 +44,52 @@ from trainopt.model import (
     build_model,
     check_curves,
     check_demand,
+    is_convex,
 )
 
-__all__ = ["DispatchResult", "DispatchSolveError", "Dispatcher", "solve_dispatch",
-           "station_range_reason"]
+__all__ = ["DispatchResult", "DispatchSolveError", "Dispatcher", "RecyclePolicy",
+           "solve_dispatch", "station_range_reason"]
 
-HIGHS_OPTIONS: dict[str, object] = {"presolve": "off"}
+HIGHS_OPTIONS: dict[str, object] = {
+    "presolve": "off",
+    "mip_heuristic_run_feasibility_jump": False,
+    "threads": 1,
+}
 """HiGHS options passed on every solve, beyond the gap and the time limit.
 
-Presolve is off: on these small models (a few hundred columns) it gains nothing and its
-restarts cost time; measured over 240 demands on synthetic 8- and 16-unit stations, the
-median CPU time per solve fell from 72 to 40 ms (8 units) and from 95 to 62 ms (16).
+Each measured on synthetic stations like those of ``benchmarks/dispatch_scaling.py``
+(median per persistent re-solve, on a shared two-core machine):
+
+- presolve off: on models of a few hundred columns it gains nothing and its restarts
+  cost time (CPU time over 120 demands per size; 8 units: 72 to 40 ms; 16: 95 to 62 ms);
+- the feasibility-jump heuristic off: it has a fixed cost of about 10 ms a solve, even on
+  a 14-column model (wall time over 60 demands per size; 2 units: 28 to 14 ms; 8 units:
+  78 to 37 ms; 16 units: 106 to 51 ms);
+- one thread: waking HiGHS's worker threads costs more than they return on models this
+  small, the more so on a busy machine (wall, 60 demands; 2 units: 23 to 8 ms; 8 units:
+  51 to 26 ms; 16 units: about the same).
+
+HiGHS fixes its thread count at the first solve in the process; if some other code ran
+HiGHS first with another count, HiGHS refuses ``threads = 1`` and the solve is repeated
+once with the default (see :func:`_threads_refused`).
 """
+
+_THREADS_REFUSED = False
+"""Set once HiGHS has refused ``threads = 1`` in this process."""
+
 
 FLOW_SNAP = 1e-6
 """Flows closer than this to a bound are put on it [kg/s] (HiGHS feasibility is 1e-7)."""
 
 
-class DispatchSolveError(TrainoptError):
-    """HiGHS stopped without any dispatch (time limit before a first solution, or a failure)."""
-
-
-@dataclass(frozen=True)
-class DispatchResult:
-    """The answer of one dispatch solve.
-
-    Attributes
-    ----------
-    status : str
-        ``"optimal"`` (within ``mip_gap``), ``"time_limit"`` (the best dispatch found
-        when the time limit struck; ``mip_gap_achieved`` says how good) or
-        ``"infeasible"`` (no dispatch exists; see ``reason``).
-    reason : str
-        Empty when a dispatch was found; otherwise, in words, the limit that binds.
-    demand : float
-        Station net flow asked for [kg/s].
-    running : dict of str to bool
-        Whether each unit runs.
-    through_flow : dict of str to float
-        Flow through each compressor [kg/s]; 0 when stopped.
-    recycle : dict of str to float
-        Flow each unit returns through its recycle valve [kg/s].
-    net_flow : dict of str to float
-        Flow each unit delivers, ``through_flow - recycle`` [kg/s].
-    unit_cost : dict of str to float
-        Each unit's cost on its piecewise-linear curve [cost unit].
-    objective : float
-        Sum of the unit costs [cost unit]; NaN when infeasible.
-    formulation : str
-        Which formulation each unit got.
-    build_seconds : float
-        Time spent building the Pyomo model for this answer [s] (0 on re-solves).
-    solve_seconds : float
-        Time spent in the solver interface, both passes [s].
-    mip_gap_achieved : float
-        Relative gap between the dispatch and HiGHS's proven bound [-]; NaN when
-        infeasible.
-    """
-
-    status: str
-    reason: str
-    demand: float
+class _Attempt(NamedTuple):
+    results: object
     running: dict[str, bool]
     through_flow: dict[str, float]
     recycle: dict[str, float]
     net_flow: dict[str, float]
     unit_cost: dict[str, float]
     objective: float
-    formulation: str
-    build_seconds: float
-    solve_seconds: float
-    mip_gap_achieved: float
-
-    def raise_if_infeasible(self) -> None:
-        """Raise :class:`~trainopt.errors.InfeasibleError` with the reason if infeasible."""
-        if self.status == "infeasible":
-            raise InfeasibleError(self.reason)
-
-    def to_dict(self) -> dict:
-        """Plain dictionary of every field, for JSON."""
-        return asdict(self)
-
-
-def station_range_reason(curves: Sequence[UnitCurve], demand: float) -> str:
-    """Say in words why a demand is outside the station's range, or return ``""``.
-
-    Parameters
-    ----------
-    curves : sequence of UnitCurve
-        The station's units.
-    demand : float
-        Station net flow [kg/s], zero or more.
-
-    Returns
-    -------
-    str
-        Empty if ``demand <= capacity``, where the capacity is the sum of the largest
-        through-flows of the units not offline [kg/s]; otherwise a sentence giving the
-        capacity and the shortfall.
-    """
-    available = [c for c in curves if c.status is not UnitStatus.OFFLINE]
-    offline = [c.name for c in curves if c.status is UnitStatus.OFFLINE]
-    capacity = float(sum(c.flow_max for c in available))
-    if demand <= capacity * (1.0 + 1e-12):
-        return ""
-    if not available:
-        return (f"demand of {demand:.6g} kg/s cannot be met: every unit is offline "
-                f"({', '.join(offline)}), so the station capacity is 0 kg/s; bring a unit "
-                f"back into service")
-    text = (f"demand of {demand:.6g} kg/s is above the station capacity of {capacity:.6g} "
-            f"kg/s with the units available ({', '.join(c.name for c in available)}, each at "
-            f"its largest through-flow), short by {demand - capacity:.4g} kg/s")
-    if offline:
-        text += f"; units offline: {', '.join(offline)}"
-    return text
 
 
 class Dispatcher:
@@ -171,6 +108,16 @@ class Dispatcher:
         HiGHS time limit per solve [s].
     convexity_rtol : float
         Relative tolerance of the convexity test [-].
+    recycle : RecyclePolicy or str
+        When recycle may be advised (default: only when no commitment avoids it).
+
+    Notes
+    -----
+    Under ``RecyclePolicy.AVOID`` a demand is first solved with every recycle bounded to
+    zero (skipped when the demand is below every unit's least through-flow, or below the
+    must-run units' total); if HiGHS proves that infeasible, it is solved again with
+    recycle allowed. Re-solves change only mutable parameters (the demand and the recycle
+    bounds), which the persistent interface passes to HiGHS without rebuilding.
 
     Examples
     --------
@@ -186,8 +133,15 @@ class Dispatcher:
 
     def __init__(self, curves: Sequence[UnitCurve], *,
                  formulation: Formulation | str = Formulation.AUTO, mip_gap: float = 1e-4,
-                 time_limit: float = 30.0, convexity_rtol: float = CONVEXITY_RTOL):
+                 time_limit: float = 30.0, convexity_rtol: float = CONVEXITY_RTOL,
+                 recycle: RecyclePolicy | str = RecyclePolicy.AVOID):
         self.curves = check_curves(curves)
+        try:
+            self.recycle = RecyclePolicy(recycle)
+        except ValueError:
+            choices = ", ".join(p.value for p in RecyclePolicy)
+            raise InputError("recycle", f"{recycle!r} is not a recycle policy",
+                             f"use one of {choices}") from None
         if not (isinstance(mip_gap, int | float) and 0.0 <= mip_gap < 1.0):
             raise InputError("mip_gap", f"{mip_gap!r} is not a relative gap",
                              "give a number from 0 to below 1, such as 1e-4")
@@ -201,6 +155,11 @@ class Dispatcher:
                                  convexity_rtol=convexity_rtol)
         self.build_seconds = time.perf_counter() - start
         self._build_pending = self.build_seconds
+        groups: dict[str, list[str]] = {}
+        for c in self.curves:
+            if c.group is not None and is_convex(c.flow, c.cost, convexity_rtol):
+                groups.setdefault(c.group, []).append(c.name)
+        self._convex_groups = list(groups.values())
         self._solver = _persistent_highs()
 
     def solve(self, demand: float) -> DispatchResult:
@@ -228,48 +187,60 @@ class Dispatcher:
         reason = station_range_reason(self.curves, demand)
         if reason:
             return self._infeasible(demand, reason, build, 0.0)
-        m = self.model
-        m.demand.set_value(demand)
+        self.model.demand.set_value(demand)
         start = time.perf_counter()
-        results = self._run()
-        if results is None:
-            return self._infeasible(demand, self._unexpected_infeasible(demand), build,
-                                    time.perf_counter() - start)
-        answer = self._read(results)
-        if sum(answer[2].values()) > FLOW_SNAP and self._recycle_may_be_avoidable(demand):
-            bound = results.objective_bound
-            for n in m.UNITS:
-                m.recycle_bound[n].set_value(0.0)
-            try:
-                second = self._run()
-                if second is not None:
-                    other = self._read(second)
-                    if bound is None or other[4] - bound <= self.mip_gap * abs(other[4]) + 1e-9:
-                        answer, results = other, second
-            finally:
-                for c in self.curves:
-                    m.recycle_bound[c.name].set_value(c.flow_min)
+        avoidable = self._recycle_may_be_avoidable(demand)
+        if self.recycle is RecyclePolicy.AVOID:
+            answer = self._attempt(forbid_recycle=True) if avoidable else None
+            if answer is None:
+                answer = self._attempt(forbid_recycle=False)
+        else:
+            answer = self._attempt(forbid_recycle=False)
+            if answer is not None and sum(answer.recycle.values()) > 0.0 and avoidable:
+                other = self._attempt(forbid_recycle=True)
+                bound = answer.results.objective_bound
+                if other is not None and (bound is None or other.objective * (1.0 - self.mip_gap)
+                                          <= bound * self.model.cost_scale + 1e-9):
+                    answer = other
         seconds = time.perf_counter() - start
-        running, through, recycle, net, objective = answer
+        if answer is None:
+            return self._infeasible(demand, self._unexpected_infeasible(demand), build, seconds)
         status = "optimal"
-        if results.termination_condition == TerminationCondition.maxTimeLimit:
+        if answer.results.termination_condition == TerminationCondition.maxTimeLimit:
             status = "time_limit"
         return DispatchResult(
-            status=status, reason="", demand=demand, running=running, through_flow=through,
-            recycle=recycle, net_flow=net,
-            unit_cost={n: self._curve(n).cost_at(through[n]) if running[n] else 0.0
-                       for n in running},
-            objective=objective, formulation=m.formulation_summary, build_seconds=build,
-            solve_seconds=seconds, mip_gap_achieved=_gap(results))
+            status=status, reason="", demand=demand, running=answer.running,
+            through_flow=answer.through_flow, recycle=answer.recycle, net_flow=answer.net_flow,
+            unit_cost=answer.unit_cost, objective=answer.objective,
+            formulation=self.model.formulation_summary, build_seconds=build,
+            solve_seconds=seconds, mip_gap_achieved=_gap(answer.results))
 
-    def _curve(self, name: str) -> UnitCurve:
-        return next(c for c in self.curves if c.name == name)
+    def _attempt(self, forbid_recycle: bool) -> _Attempt | None:
+        """Solve with recycle allowed or forbidden; None if HiGHS proves infeasibility."""
+        m = self.model
+        if forbid_recycle:
+            for n in m.UNITS:
+                m.recycle_bound[n].set_value(0.0)
+        try:
+            results = self._run()
+        finally:
+            if forbid_recycle:
+                for c in self.curves:
+                    m.recycle_bound[c.name].set_value(c.flow_min)
+        return None if results is None else self._read(results)
 
     def _run(self):
         """Solve; return the results, or None when HiGHS proves infeasibility."""
+        global _THREADS_REFUSED
+        options = dict(HIGHS_OPTIONS)
+        if _THREADS_REFUSED:
+            options["threads"] = 0  # HiGHS's default: the count fixed at its first solve
         results = self._solver.solve(
             self.model, load_solutions=False, raise_exception_on_nonoptimal_result=False,
-            rel_gap=self.mip_gap, time_limit=self.time_limit, solver_options=dict(HIGHS_OPTIONS))
+            rel_gap=self.mip_gap, time_limit=self.time_limit, solver_options=options)
+        if options.get("threads") == 1 and _threads_refused(results):
+            _THREADS_REFUSED = True
+            return self._run()
         tc = results.termination_condition
         has_solution = results.solution_status in (SolutionStatus.feasible,
                                                    SolutionStatus.optimal)
@@ -285,24 +256,32 @@ class Dispatcher:
         results.solution_loader.load_vars()
         return results
 
-    def _read(self, results):
-        """Running flags, flows and cost of the loaded solution, snapped onto the bounds."""
+    def _read(self, results) -> _Attempt:
+        """The loaded solution, flows snapped onto their bounds, costs read off the curves."""
         m = self.model
-        running, through, recycle, net = {}, {}, {}, {}
+        running, through, recycle, net, cost = {}, {}, {}, {}, {}
         for c in self.curves:
             n = c.name
             on = pyo.value(m.run[n]) > 0.5
             running[n] = on
             if not on:
-                through[n] = recycle[n] = net[n] = 0.0
+                through[n] = recycle[n] = net[n] = cost[n] = 0.0
                 continue
             x = float(np.clip(pyo.value(m.through_flow[n]), c.flow_min, c.flow_max))
             q = float(np.clip(pyo.value(m.net_flow[n]), 0.0, x))
             if x - q <= FLOW_SNAP:
                 q = x
             through[n], net[n], recycle[n] = x, q, x - q
-        objective = sum(self._curve(n).cost_at(through[n]) for n in running if running[n])
-        return running, through, recycle, net, float(objective)
+        for members in self._convex_groups:
+            on = [n for n in members if running[n]]
+            if len(on) > 1:  # identical convex units: an equal share costs no more (Jensen)
+                x = sum(through[n] for n in on) / len(on)
+                q = sum(net[n] for n in on) / len(on)
+                for n in on:
+                    through[n], net[n], recycle[n] = x, q, x - q
+        for c in self.curves:
+            cost[c.name] = c.cost_at(through[c.name]) if running[c.name] else 0.0
+        return _Attempt(results, running, through, recycle, net, cost, float(sum(cost.values())))
 
     def _recycle_may_be_avoidable(self, demand: float) -> bool:
         free = [c.flow_min for c in self.curves if c.status is not UnitStatus.OFFLINE]
@@ -328,7 +307,8 @@ class Dispatcher:
 
 def solve_dispatch(curves: Sequence[UnitCurve], demand: float, *, mip_gap: float = 1e-4,
                    time_limit: float = 30.0,
-                   formulation: Formulation | str = Formulation.AUTO) -> DispatchResult:
+                   formulation: Formulation | str = Formulation.AUTO,
+                   recycle: RecyclePolicy | str = RecyclePolicy.AVOID) -> DispatchResult:
     """Least-cost dispatch of one demand across a station's units.
 
     Parameters
@@ -343,6 +323,8 @@ def solve_dispatch(curves: Sequence[UnitCurve], demand: float, *, mip_gap: float
         HiGHS time limit [s].
     formulation : Formulation or str
         How the curves enter the model.
+    recycle : RecyclePolicy or str
+        When recycle may be advised (see :class:`RecyclePolicy`).
 
     Returns
     -------
@@ -356,8 +338,8 @@ def solve_dispatch(curves: Sequence[UnitCurve], demand: float, *, mip_gap: float
     DispatchSolveError
         If HiGHS stops without any dispatch.
     """
-    return Dispatcher(curves, formulation=formulation, mip_gap=mip_gap,
-                      time_limit=time_limit).solve(demand)
+    return Dispatcher(curves, formulation=formulation, mip_gap=mip_gap, time_limit=time_limit,
+                      recycle=recycle).solve(demand)
 
 
 def _persistent_highs():
@@ -374,6 +356,16 @@ def _persistent_highs():
     updates.update_objective = False
     updates.update_parameters = True
     return solver
+
+
+def _threads_refused(results) -> bool:
+    """Whether HiGHS refused to run because its thread count was fixed differently.
+
+    HiGHS then returns without a status (``kNotset``, which Pyomo reports as an unknown
+    termination) and says so in its log.
+    """
+    return (results.termination_condition == TerminationCondition.unknown
+            and "scheduler" in (results.solver_log or "").lower())
 
 
 def _gap(results) -> float:

@@ -21,12 +21,22 @@ from trainopt.conditions import Duty
 from trainopt.errors import InputError
 from trainopt.machines import Train, UnitStatus
 from trainopt.model import UnitCurve
-from trainopt.reduction import LIMIT_NAMES, LeastPowerCurve, reduce_unit
+from trainopt.reduction import LIMIT_NAMES, LeastPowerCurve, operate, reduce_unit
 from trainopt.result import StationResult, unit_rows
 from trainopt.solve import solve_dispatch
 from trainopt.units import parse_flow
 
 OBJECTIVES = ("shaft_power", "energy_input", "cost")
+
+
+def driver_price(economics, driver) -> tuple[float, float]:
+    """Energy price [currency/J] and CO2 factor [kg/J] of a driver's input.
+
+    Motors draw electricity; turbines burn fuel (steam is charged at the fuel price).
+    """
+    if "motor" in driver.kind:
+        return economics.electricity_price, economics.co2_electricity
+    return economics.fuel_price, economics.co2_fuel
 
 
 class Station:
@@ -43,6 +53,10 @@ class Station:
     """
 
     def __init__(self, case: Case, offline: Iterable[str] = (), objective: str | None = None):
+        if case.interstage_header is not None:
+            raise InputError("interstage_header", "a station with a shared interstage header "
+                             "has two groups of units, not one", "use trainopt.optimize (it "
+                             "searches the header pressure) or trainopt.header")
         self.case = case
         self.objective = objective or case.objective
         if self.objective not in OBJECTIVES:
@@ -78,10 +92,44 @@ class Station:
 
     def price(self, train: Train) -> tuple[float, float]:
         """Energy price [currency/J] and CO2 factor [kg/J] of a unit's driver input."""
-        econ = self.case.economics
-        if "motor" in train.driver.kind:
-            return econ.electricity_price, econ.co2_electricity
-        return econ.fuel_price, econ.co2_fuel
+        return self.driver_price(train.driver)
+
+    def driver_price(self, driver) -> tuple[float, float]:
+        """Energy price [currency/J] and CO2 factor [kg/J] of a driver's input."""
+        return driver_price(self.case.economics, driver)
+
+    def curve_cost(self, name: str, sample: bool = False) -> np.ndarray:
+        """The objective along a unit's curve: at its breakpoints, or on its fine sample.
+
+        [W for power and energy, currency/s for cost.] A series train whose sections have
+        their own drivers carries its cost per breakpoint (drivers of different prices).
+        """
+        curve = self.curves[name]
+        train = self.case.train(name)
+        cost_rate = curve.sample_cost_rate if sample else curve.cost_rate
+        if self.objective == "cost" and cost_rate is not None:
+            return np.asarray(cost_rate, float)
+        if sample:
+            return np.asarray(self.cost(train, curve.sample_shaft_power,
+                                        curve.sample_energy_input), float)
+        return np.asarray(self.cost(train, curve.shaft_power, curve.energy_input), float)
+
+    def profile(self, name: str, through_flow) -> tuple[np.ndarray, np.ndarray]:
+        """Speed over maximum speed [-] and control-line margin [-] along through-flows.
+
+        For a series train: the shaft's (or, separately driven, the highest section's)
+        speed fraction and the smallest control-line margin of its sections. Used by the
+        load-sharing baselines.
+        """
+        train = self.case.train(name)
+        m = np.asarray(through_flow, float)
+        if train.is_single_section:
+            op = operate(train, self.duty(train), m, self.case.ambient_temperature)
+            return (op.speed / train.speed_max,
+                    (op.volume_flow - op.control_line_flow) / op.control_line_flow)
+        from trainopt.series import train_profile
+
+        return train_profile(self, train, m)
 
     def cost(self, train: Train, shaft_power, energy_input):
         """The objective at shaft power and energy input [W] (W or currency/s)."""
@@ -98,9 +146,9 @@ class Station:
             if not curve.feasible:
                 continue
             train = self.case.train(name)
-            cost = self.cost(train, curve.shaft_power, curve.energy_input)
-            out.append(UnitCurve(name, curve.mass_flow, np.asarray(cost, float),
-                                 self.status[name].value, train.group))
+            out.append(UnitCurve(name, curve.mass_flow, self.curve_cost(name),
+                                 self.status[name].value, train.group,
+                                 largest_flow_limit=LIMIT_NAMES.get(curve.high_limit)))
         return out
 
     def sampled_cost(self, name: str) -> CubicSpline:
@@ -111,9 +159,7 @@ class Station:
         breakpoint tolerance. The final split is always re-evaluated on the true model.
         """
         curve = self.curves[name]
-        train = self.case.train(name)
-        cost = self.cost(train, curve.sample_shaft_power, curve.sample_energy_input)
-        return CubicSpline(curve.sample_flow, cost)
+        return CubicSpline(curve.sample_flow, self.curve_cost(name, sample=True))
 
     def refine(self, through: dict[str, float]) -> dict[str, float]:
         """Refine running units' interior flows on the sampled true model, keeping their sum.
@@ -173,6 +219,10 @@ def optimize(case: Case, demand=None, offline: Iterable[str] = (), objective: st
     StationResult
         Status ``"optimal"`` with the per-unit table, or ``"infeasible"`` with the reason.
     """
+    if case.interstage_header is not None:
+        from trainopt.header import optimize_header
+
+        return optimize_header(case, demand, offline, objective, baselines)
     station = Station(case, offline, objective)
     m_demand = _demand(case, demand)
     curves = station.unit_curves()
@@ -202,15 +252,25 @@ def optimize(case: Case, demand=None, offline: Iterable[str] = (), objective: st
     return result
 
 
-def evaluate(case: Case, split: Mapping[str, object]) -> StationResult:
+SPLIT_TOLERANCE = 1e-3
+"""Relative difference allowed between a split's total and the demand it should meet [-]."""
+
+
+def evaluate(case: Case, split: Mapping[str, object], demand=None) -> StationResult:
     """Evaluate a given split on the true model.
 
     Parameters
     ----------
     case : Case
+    demand : str or float, optional
+        The station throughput the split must add up to (a flow with its unit, or a mass
+        flow [kg/s]); when given, a split whose net flows differ from it by more than
+        :data:`SPLIT_TOLERANCE` is refused. The command line passes the case's demand.
     split : mapping of str to str or float
-        Unit name to net mass flow [kg/s] (or a flow string with its unit). Units absent
-        are stopped. Each running unit gets the least recycle it needs.
+        Unit (or train) name to net mass flow [kg/s] (or a flow string with its unit).
+        Units absent are stopped. Each running unit gets the least recycle it needs. For
+        a station with a shared interstage header, the key ``interstage_header`` gives
+        its pressure (``"48 bar"`` or [Pa]).
 
     Returns
     -------
@@ -219,6 +279,14 @@ def evaluate(case: Case, split: Mapping[str, object]) -> StationResult:
     """
     names = {t.name for t in case.trains}
     flows = {}
+    split = dict(split)
+    header_pressure = split.pop("interstage_header", None)
+    if case.interstage_header is None and header_pressure is not None:
+        raise InputError("split.interstage_header", "the case has no shared interstage header",
+                         "leave it out of the split")
+    if case.interstage_header is not None and header_pressure is None:
+        raise InputError("split.interstage_header", "is missing: a shared-header station needs "
+                         "the header pressure", "add interstage_header='48 bar' to the split")
     for name, value in split.items():
         if name not in names:
             raise InputError(f"split.{name}", f"no unit named '{name}'",
@@ -228,11 +296,26 @@ def evaluate(case: Case, split: Mapping[str, object]) -> StationResult:
         if not float(value) >= 0:
             raise InputError(f"split.{name}", f"{value} is negative", "give a net flow >= 0")
         flows[name] = float(value)
+    if demand is not None:
+        target = _demand(case, demand)
+        total = sum(flows.values())
+        if abs(total - target) > SPLIT_TOLERANCE * max(target, 1e-9):
+            raise InputError("split", f"the shares add up to {total:.3f} kg/s but the demand is "
+                             f"{target:.3f} kg/s", "make the shares add up to the demand, or "
+                             "state the demand they meet (--demand)")
     offline = [t.name for t in case.trains if t.name not in flows]
     for name in flows:
         if case.train(name).status is UnitStatus.OFFLINE:
             raise InputError(f"split.{name}", "the case marks this unit offline",
                              "leave it out of the split or change its status")
+    if header_pressure is not None:
+        from trainopt.header import evaluate_header_split
+        from trainopt.units import Kind, parse_quantity
+
+        pressure = (float(header_pressure) if isinstance(header_pressure, int | float) else
+                    parse_quantity(header_pressure, Kind.PRESSURE, "split.interstage_header",
+                                   atmospheric=case.atmospheric_pressure))
+        return evaluate_header_split(case, flows, pressure)
     station = Station(case, offline)
     return evaluate_split(station, flows)
 
@@ -250,14 +333,17 @@ def evaluate_split(station: Station, net: Mapping[str, float]) -> StationResult:
             return StationResult.infeasible(
                 station.case, total,
                 f"{name} cannot carry {m:.2f} kg/s: its largest through-flow today is "
-                f"{curve.max_flow:.2f} kg/s, set by the {LIMIT_NAMES[curve.high_limit]}",
+                f"{curve.max_flow:.2f} kg/s, set by the {LIMIT_NAMES[curve.high_limit]}"
+                + (f" ({curve.high_section})" if curve.high_section else ""),
                 station.objective)
         through[name] = max(m, curve.min_flow)
         recycle[name] = through[name] - m
     for name in station.curves:
         through.setdefault(name, 0.0)
         recycle.setdefault(name, 0.0)
-    return _result(station, through, recycle, total)
+    result = _result(station, through, recycle, total)
+    result.status = "evaluated"  # a given split, not an optimum (see StationResult)
+    return result
 
 
 def _demand(case: Case, demand) -> float:
