@@ -166,3 +166,12 @@ def gas_command(
     gas = load_gas(gas_file, models[eos])
     data = gas_summary(gas, p1, t1, p2, eta, basis, method)
     _emit(data, as_json, f"Gas from {gas_file}")
+
+
+def _register_studies() -> None:
+    from trainopt.studies_cli import register
+
+    register(app)
+
+
+_register_studies()

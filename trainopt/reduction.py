@@ -365,7 +365,14 @@ def _infeasible(train: Train, duty: Duty, op: Operation, viol, ambient: float
             edge_viol = edge.violations(train)
             if not any(v[0] for k, v in edge_viol.items() if k not in ("power", "control_line")):
                 short = min(short, float(edge.shaft_power[0] - edge.available_power[0]))
-            reason += f" (short of power by at least {short / 1e3:.0f} kW)"
+            if short > 0:
+                reason += f" (short of power by at least {short / 1e3:.0f} kW)"
+            else:
+                power_ok = ~viol["power"]
+                rest = {k: int((v & power_ok).sum()) for k, v in viol.items() if k != "power"}
+                other = max(rest, key=rest.get)
+                reason = (f"no through-flow meets every limit; where the driver has the power, "
+                          f"the {LIMIT_NAMES[other]} is broken")
     empty = np.array([])
     return LeastPowerCurve(train.name, empty, empty, empty, worst_or(viol), "", True, 0.0,
                            False, reason)

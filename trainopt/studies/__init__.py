@@ -1,0 +1,11 @@
+"""Planning and energy studies built on the station optimiser.
+
+- :mod:`~trainopt.studies.envelope`: turndown, unit-offline envelopes, throughput and
+  condition sweeps;
+- :mod:`~trainopt.studies.audit`: the recycle-loss and load-sharing audit of operating
+  history read by :mod:`~trainopt.studies.history_io`;
+- :mod:`~trainopt.studies.parallel`: local processes or a Dask cluster for either.
+
+Studies never build their own physics: they call :class:`trainopt.station.Station`,
+:func:`trainopt.station.evaluate_split`, the dispatch model and the true unit model.
+"""
