@@ -5,14 +5,12 @@ from __future__ import annotations
 import json
 import math
 import sys
-from collections.abc import Callable
-from functools import wraps
 from pathlib import Path
 
 import typer
 
+from trainopt.cli_support import friendly
 from trainopt.compression import HeadBasis, PolytropicMethod
-from trainopt.errors import TrainoptError
 from trainopt.gas import EquationOfState
 from trainopt.units import Kind, parse_quantity
 
@@ -25,20 +23,6 @@ app = typer.Typer(add_completion=False, no_args_is_help=True,
 @app.callback()
 def _root() -> None:
     """Least-power load sharing and margins for centrifugal compressor stations."""
-
-
-def _friendly(func: Callable) -> Callable:
-    """Turn trainopt's own errors into one line on stderr and exit status 2."""
-
-    @wraps(func)
-    def wrapper(*args, **kwargs):
-        try:
-            return func(*args, **kwargs)
-        except TrainoptError as exc:
-            typer.echo(f"error: {exc}", err=True)
-            raise typer.Exit(2) from None
-
-    return wrapper
 
 
 def _table(rows: dict, title: str) -> str:
@@ -60,7 +44,7 @@ def _emit(data: dict, as_json: bool, title: str) -> None:
 
 
 @app.command("optimize")
-@_friendly
+@friendly
 def optimize_command(
     case_file: Path = typer.Argument(..., help="Station case (YAML)."),
     demand: str | None = typer.Option(None, "--demand", help="Throughput, e.g. '300 MMSCFD'."),
@@ -79,7 +63,7 @@ def optimize_command(
 
 
 @app.command("evaluate")
-@_friendly
+@friendly
 def evaluate_command(
     case_file: Path = typer.Argument(..., help="Station case (YAML)."),
     split: list[str] = typer.Option(..., "--split", help="NAME=QTY, e.g. A=25kg/s (repeat)."),
@@ -121,7 +105,7 @@ def _show(result, as_json: bool, out: Path | None) -> None:
 
 
 @app.command("fit-map")
-@_friendly
+@friendly
 def fit_map_command(
     map_file: Path = typer.Argument(..., help="Map file (CSV with units in the header, or YAML)."),
     out: Path = typer.Option(Path("map_fit"), "--out", help="Folder for the report and picture."),
@@ -135,7 +119,7 @@ def fit_map_command(
 
 
 @app.command("gas")
-@_friendly
+@friendly
 def gas_command(
     gas_file: Path = typer.Argument(..., help="YAML file with a 'composition' (or a case file)."),
     pressure: str = typer.Option(..., "--pressure", "-p", help="Absolute pressure, e.g. '45 bar'."),

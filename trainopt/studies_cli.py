@@ -8,27 +8,14 @@ trainopt's own errors into one line on stderr with exit status 2.
 from __future__ import annotations
 
 import sys
-from collections.abc import Callable
-from functools import wraps
 from pathlib import Path
 from typing import Annotated
 
 import typer
 
-from trainopt.errors import InputError, TrainoptError
+from trainopt.cli_support import friendly
+from trainopt.errors import InputError
 from trainopt.result import CAUTION
-
-
-def _friendly(func: Callable) -> Callable:
-    @wraps(func)
-    def wrapper(*args, **kwargs):
-        try:
-            return func(*args, **kwargs)
-        except TrainoptError as exc:
-            typer.echo(f"error: {exc}", err=True)
-            raise typer.Exit(2) from None
-
-    return wrapper
 
 
 def _written(paths: dict) -> None:
@@ -128,5 +115,5 @@ def audit_command(
 
 def register(app: typer.Typer) -> None:
     """Add the ``envelope`` and ``audit`` commands to the ``trainopt`` app."""
-    app.command("envelope")(_friendly(envelope_command))
-    app.command("audit")(_friendly(audit_command))
+    app.command("envelope")(friendly(envelope_command))
+    app.command("audit")(friendly(audit_command))
