@@ -273,3 +273,23 @@ def test_hot_ambient_shrinks_a_gas_turbine_unit(demo_station):
     (m_cool, p_cool), (m_hot, p_hot) = largest
     assert m_hot < m_cool
     assert p_hot < p_cool
+
+
+def test_points_at_the_surge_line_are_on_the_map_or_off_it_never_in_between(demo_station):
+    # Just right of the surge line the speed iteration used to alternate between a point
+    # at a fallback efficiency and "off the map" (a 9 kW jump on demo unit D at 0.1 kg/s).
+    # Every point with a speed must lie right of its surge flow, every other left of it.
+    case = demo_station.case
+    train = case.train("D")
+    duty = demo_station.duty(train)
+    surge = demo_station.curves["D"].min_flow / 1.10  # least flow = 1.10 x surge (common practice)
+    m = np.linspace(surge * 0.995, surge * 1.01, 61)
+    op = operate(train, duty, m, case.ambient_temperature)
+    on_map = np.isfinite(op.speed)
+    assert on_map.any()
+    assert not on_map.all()
+    assert np.all(op.volume_flow[on_map] >= op.surge_flow[on_map] * (1 - 1e-9))
+    power = op.shaft_power[on_map]
+    slopes = np.diff(power) / np.diff(m[on_map])
+    # the curve is smooth here: no slope departs from the median by more than 5 %
+    assert np.max(np.abs(slopes / np.median(slopes) - 1)) < 0.05

@@ -131,8 +131,10 @@ def operate(train: Train, duty: Duty, mass_flow, ambient_temperature: float) -> 
     for _ in range(6):
         head = duty.head(eta)
         n_section = cmap.speed_for(q, head)
-        eta = np.where(np.isfinite(n_section), cmap.efficiency(q, n_section, warn=False), np.nan)
-        eta = np.where(np.isfinite(eta), eta, 0.8)
+        new = np.where(np.isfinite(n_section), cmap.efficiency(q, n_section, warn=False), np.nan)
+        # keep the last efficiency found where this pass fell off the map: falling back to
+        # a fixed guess made points just right of the surge line alternate between passes
+        eta = np.where(np.isfinite(new), new, eta)
     head = duty.head(eta)
     n_section = cmap.speed_for(q, head)
     eta = cmap.efficiency(q, n_section, warn=False)
