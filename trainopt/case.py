@@ -343,7 +343,7 @@ def load_case(path: str | Path, load_map=None) -> Case:
     """
     from trainopt.maps import load_map as default_loader
 
-    load_map = load_map or default_loader
+    load_map = _once_per_file(load_map or default_loader)
     path = Path(path)
     data = read_yaml(path)
     try:
@@ -351,6 +351,19 @@ def load_case(path: str | Path, load_map=None) -> Case:
     except ValidationError as exc:
         raise _validation_error(exc, path) from None
     return _build(schema, path, load_map)
+
+
+def _once_per_file(load_map):
+    """Wrap a map loader so that units naming one file share one map object."""
+    maps: dict[Path, object] = {}
+
+    def load(path: Path):
+        key = Path(path).resolve()
+        if key not in maps:
+            maps[key] = load_map(path)
+        return maps[key]
+
+    return load
 
 
 def _build(s: CaseSchema, path: Path, load_map) -> Case:

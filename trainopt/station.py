@@ -10,6 +10,7 @@ user gives and reports it the same way.
 from __future__ import annotations
 
 from collections.abc import Iterable, Mapping
+from dataclasses import replace
 
 import numpy as np
 from scipy.interpolate import CubicSpline
@@ -69,12 +70,19 @@ class Station:
                        for t in case.trains}
         self._duties: dict[HeadBasis, Duty] = {}
         self.curves: dict[str, LeastPowerCurve] = {}
+        reduced: dict[tuple, LeastPowerCurve] = {}
         for train in case.trains:
             if self.status[train.name] is UnitStatus.OFFLINE:
                 continue
             if train.is_single_section:
+                key = _twin_key(train)
+                if key is not None and key in reduced:
+                    self.curves[train.name] = replace(reduced[key], name=train.name)
+                    continue
                 self.curves[train.name] = reduce_unit(train, self.duty(train),
                                                       case.ambient_temperature)
+                if key is not None:
+                    reduced[key] = self.curves[train.name]
             else:
                 from trainopt.series import reduce_train
 
@@ -189,6 +197,24 @@ class Station:
                         zip(names, res.x, lo, hi, strict=True)})
             return out
         return through
+
+
+def _twin_key(train: Train) -> tuple | None:
+    """What fixes a single-section unit's curve, so that identical units are reduced once.
+
+    Units sharing a map object (the case loader gives units that name the same map file the
+    same object), driver and limits have the same curve. None where the driver is not
+    hashable.
+    """
+    section = train.sections[0]
+    key = (id(section.compressor_map), section.speed_ratio, section.surge_control_offset,
+           section.max_discharge_temperature, train.driver, train.speed_min, train.speed_max,
+           train.max_power, train.mechanical_loss)
+    try:
+        hash(key)
+    except TypeError:
+        return None
+    return key
 
 
 def _infeasible_units_text(station: Station) -> str:
