@@ -89,3 +89,23 @@ def write_demo_variant():
         return path
 
     return write
+
+
+DEMO_STATION = Path(__file__).resolve().parents[1] / "cases" / "demo" / "station.yaml"
+"""The invented demo station (demo data, not a reference)."""
+
+
+@pytest.fixture(scope="session")
+def demo_case():
+    """The demo station's case, loaded once for the whole run."""
+    import trainopt
+
+    return trainopt.load_case(DEMO_STATION)
+
+
+@pytest.fixture(scope="session")
+def demo_station(demo_case):
+    """The demo station reduced at its case's conditions, once for the whole run."""
+    from trainopt.station import Station
+
+    return Station(demo_case)

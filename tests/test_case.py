@@ -50,11 +50,6 @@ def render_case_docs() -> None:
 
 
 @pytest.fixture(scope="module")
-def demo_case():
-    return trainopt.load_case(DEMO)
-
-
-@pytest.fixture(scope="module")
 def pair_case():
     return trainopt.load_case(SMALL / "gaslib135_pair.yaml")
 

@@ -13,7 +13,6 @@ import pytest
 import yaml
 from numpy.testing import assert_allclose
 
-import trainopt
 from trainopt.errors import InputError
 from trainopt.studies.history_io import (
     ValveColumn,
@@ -26,11 +25,6 @@ from trainopt.studies.history_io import (
 from trainopt.units import FlowBasis
 
 DEMO = Path(__file__).resolve().parents[1] / "cases" / "demo" / "station.yaml"
-
-
-@pytest.fixture(scope="module")
-def demo_case():
-    return trainopt.load_case(DEMO)
 
 
 def _mapping(tmp_path, **changes) -> Path:

@@ -85,11 +85,6 @@ def pair_station(pair_case):
     return Station(pair_case)
 
 
-@pytest.fixture(scope="module")
-def demo_station():
-    return Station(trainopt.load_case(DEMO))
-
-
 def unit(station, name):
     train = station.case.train(name)
     return train, station.duty(train), station.curves[name]

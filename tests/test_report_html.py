@@ -20,7 +20,6 @@ import typer
 import yaml
 from typer.testing import CliRunner
 
-import trainopt
 from trainopt.errors import InputError
 from trainopt.report import audit_tables, write_html, write_tables
 from trainopt.result import CAUTION
@@ -32,11 +31,6 @@ from trainopt.studies_cli import register
 ROOT = Path(__file__).resolve().parents[1]
 DEMO = ROOT / "cases" / "demo" / "station.yaml"
 PNG_SIGNATURE = b"\x89PNG\r\n\x1a\n"  # PNG specification (ISO/IEC 15948), file signature
-
-
-@pytest.fixture(scope="module")
-def demo_case():
-    return trainopt.load_case(DEMO)
 
 
 @pytest.fixture(scope="module")

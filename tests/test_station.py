@@ -135,11 +135,6 @@ def trio_case():
 
 
 @pytest.fixture(scope="module")
-def demo_case():
-    return trainopt.load_case(DEMO)
-
-
-@pytest.fixture(scope="module")
 def pair_station(pair_case):
     return Station(pair_case)
 
@@ -147,11 +142,6 @@ def pair_station(pair_case):
 @pytest.fixture(scope="module")
 def trio_station(trio_case):
     return Station(trio_case)
-
-
-@pytest.fixture(scope="module")
-def demo_station(demo_case):
-    return Station(demo_case)
 
 
 PAIR_DEMANDS = (30.0, 60.0, 150.0, 200.0)

@@ -27,13 +27,8 @@ UNITS = "ABCD"
 
 
 @pytest.fixture(scope="module")
-def demo_case():
-    return trainopt.load_case(DEMO)
-
-
-@pytest.fixture(scope="module")
-def station(demo_case):
-    return Station(demo_case)
+def station(demo_station):
+    return demo_station
 
 
 def _row(time, p1=44.0, p2=66.0, t1=22.0, ambient=24.0, **units):

@@ -12,10 +12,9 @@ import numpy as np
 import pytest
 from numpy.testing import assert_allclose
 
-import trainopt
 from trainopt.errors import InputError
 from trainopt.reduction import operate
-from trainopt.station import Station, evaluate_split
+from trainopt.station import evaluate_split
 from trainopt.studies.envelope import (
     condition_sweep,
     envelope_study,
@@ -32,13 +31,8 @@ DEMO = Path(__file__).resolve().parents[1] / "cases" / "demo" / "station.yaml"
 
 
 @pytest.fixture(scope="module")
-def demo_case():
-    return trainopt.load_case(DEMO)
-
-
-@pytest.fixture(scope="module")
-def station(demo_case):
-    return Station(demo_case)
+def station(demo_station):
+    return demo_station
 
 
 def test_service_sets(demo_case):
