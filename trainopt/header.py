@@ -102,16 +102,13 @@ class HeaderSearch:
     """
 
     def __init__(self, case: Case, offline: Iterable[str] = (), objective: str | None = None):
-        from trainopt.station import OBJECTIVES, driver_price
+        from trainopt.station import chosen_objective, driver_price
 
         if case.interstage_header is None:
             raise InputError("interstage_header", "the case has no shared interstage header",
                              "use trainopt.optimize for a station of parallel units")
         self.case = case
-        self.objective = objective or case.objective
-        if self.objective not in OBJECTIVES:
-            raise InputError("objective", f"unknown objective '{self.objective}'",
-                             f"use one of {', '.join(OBJECTIVES)}")
+        self.objective = chosen_objective(case, objective)
         self.offline = list(offline)
         for name in self.offline:
             case.train(name)

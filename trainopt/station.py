@@ -30,6 +30,15 @@ from trainopt.units import parse_flow
 OBJECTIVES = ("shaft_power", "energy_input", "cost")
 
 
+def chosen_objective(case: Case, objective: str | None) -> str:
+    """The objective asked for, or the case's; refused by name if unknown."""
+    chosen = objective or case.objective
+    if chosen not in OBJECTIVES:
+        raise InputError("objective", f"unknown objective '{chosen}'",
+                         f"use one of {', '.join(OBJECTIVES)}")
+    return chosen
+
+
 def driver_price(economics, driver) -> tuple[float, float]:
     """Energy price [currency/J] and CO2 factor [kg/J] of a driver's input.
 
@@ -59,10 +68,7 @@ class Station:
                              "has two groups of units, not one", "use trainopt.optimize (it "
                              "searches the header pressure) or trainopt.header")
         self.case = case
-        self.objective = objective or case.objective
-        if self.objective not in OBJECTIVES:
-            raise InputError("objective", f"unknown objective '{self.objective}'",
-                             f"use one of {', '.join(OBJECTIVES)}")
+        self.objective = chosen_objective(case, objective)
         offline = list(offline)
         for name in offline:
             case.train(name)
