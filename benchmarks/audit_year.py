@@ -39,9 +39,9 @@ COLUMNS = ROOT / "cases" / "demo" / "history" / "columns.yaml"
 def plain_hour(case, gas, row, units) -> tuple[float, float]:
     """Recorded-split and optimum shaft power [W] rebuilt from scratch for one hour."""
     import trainopt
-    from trainopt.machines import UnitStatus
-    from trainopt.reduction import operate
-    from trainopt.station import Station
+    from trainopt.dispatch.reduction import operate
+    from trainopt.machines.train import UnitStatus
+    from trainopt.station.reduced import Station
 
     trains = tuple(dataclasses.replace(t, status=UnitStatus.AVAILABLE) for t in case.trains)
     exact = dataclasses.replace(case, gas=gas, trains=trains,
@@ -69,9 +69,9 @@ def main(argv=None) -> int:
     args = parser.parse_args(argv)
 
     import trainopt
-    from trainopt.gas import Gas
+    from trainopt.physics.gas import Gas
     from trainopt.studies.audit import audit_history, gas_recipes
-    from trainopt.studies.history_io import read_history
+    from trainopt.studies.history_reader import read_history
 
     if not HISTORY.is_file():
         sys.stdout.write(f"{HISTORY} is missing: run cases/demo/history/make_history.py\n")

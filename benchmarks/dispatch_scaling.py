@@ -29,8 +29,8 @@ import time
 import numpy as np
 from scipy.optimize import minimize
 
-from trainopt.model import Formulation, UnitCurve, is_convex
-from trainopt.solve import Dispatcher, solve_dispatch
+from trainopt.dispatch.model import Formulation, UnitCurve, is_convex
+from trainopt.dispatch.solve import Dispatcher, solve_dispatch
 
 SIZES = (2, 4, 8, 16)
 DEMAND_FRACTIONS = np.linspace(0.04, 0.96, 12)

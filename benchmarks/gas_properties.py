@@ -23,9 +23,9 @@ import CoolProp
 import CoolProp.CoolProp as CP
 import numpy as np
 
-from trainopt.compression import PolytropicMethod, compress
-from trainopt.gas import _COMPONENTS, EquationOfState, Gas
-from trainopt.io_gas import load_gas
+from trainopt.case.gas_file import load_gas
+from trainopt.physics.compression import PolytropicMethod, compress
+from trainopt.physics.gas import _COMPONENTS, EquationOfState, Gas
 
 DEMO_GAS = Path(__file__).resolve().parents[1] / "cases" / "demo" / "gas.yaml"
 

@@ -12,7 +12,7 @@ from pathlib import Path
 
 import numpy as np
 
-from trainopt.maps import CompressorMap, load_map
+from trainopt.machines.maps import CompressorMap, load_map
 
 ROOT = Path(__file__).resolve().parents[1]
 MAPS = {

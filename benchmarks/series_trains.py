@@ -25,7 +25,7 @@ Times are the shortest of three runs (the machine may be shared).
 For the shared header: ``search`` (the outer loop on the gas-table model, each step a
 reduction of both groups and two HiGHS solves), ``optimize`` (search plus the exact
 final evaluation), and the gap against a brute force over 41 + 21 header pressures, each
-with both groups' exhaustive split on CoolProp duties (:func:`trainopt.reduction.operate`,
+with both groups' exhaustive split on CoolProp duties (:func:`trainopt.dispatch.reduction.operate`,
 independent of the gas table and of the search).
 """
 
@@ -36,12 +36,12 @@ from pathlib import Path
 import numpy as np
 
 import trainopt
-from trainopt.conditions import Duty
-from trainopt.header import HeaderSearch, group_case
-from trainopt.reduction import operate
-from trainopt.series import train_conditions
-from trainopt.station import Station
-from trainopt.train_operation import operate_train
+from trainopt.dispatch.reduction import operate
+from trainopt.dispatch.series_reduction import train_conditions
+from trainopt.machines.train_operation import operate_train
+from trainopt.physics.duty import Duty
+from trainopt.station.header import HeaderSearch, group_case
+from trainopt.station.reduced import Station
 
 ROOT = Path(__file__).resolve().parents[1]
 GRID = 0.25

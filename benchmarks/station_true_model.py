@@ -2,7 +2,8 @@
 
 Where ``benchmarks/dispatch_scaling.py`` times the dispatch core on smooth synthetic curves,
 this script times the whole optimiser on the true model: every power figure comes from the
-map, the CoolProp gas duty and the driver model, evaluated by ``trainopt.reduction.operate``,
+map, the CoolProp gas duty and the driver model, evaluated by
+``trainopt.dispatch.reduction.operate``,
 and a true evaluation costs about 10 to 30 ms a call (vectorised over flows).
 
 Two families of stations, each at 2, 4, 8 and 16 units (``DEMO_PLAN``, ``GASLIB_PLAN``):
@@ -54,9 +55,9 @@ import numpy as np
 from scipy.optimize import minimize
 
 import trainopt
-from trainopt.reduction import operate
-from trainopt.solve import Dispatcher
-from trainopt.station import Station, evaluate_split
+from trainopt.dispatch.reduction import operate
+from trainopt.dispatch.solve import Dispatcher
+from trainopt.station.reduced import Station, evaluate_split
 
 ROOT = Path(__file__).resolve().parents[1]
 SIZES = (2, 4, 8, 16)

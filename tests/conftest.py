@@ -11,7 +11,7 @@ from pathlib import Path
 
 import pytest
 
-from trainopt.gas import EquationOfState, Gas
+from trainopt.physics.gas import EquationOfState, Gas
 
 # NIST's AGA8/GERG-2008 reference code (E. W. Lemmon, NIST, github.com/usnistgov/AGA8;
 # GERG-2008 as in AGA Report No. 8 Part 2, 2017): the test gas of the example program in
@@ -106,6 +106,6 @@ def demo_case():
 @pytest.fixture(scope="session")
 def demo_station(demo_case):
     """The demo station reduced at its case's conditions, once for the whole run."""
-    from trainopt.station import Station
+    from trainopt.station.reduced import Station
 
     return Station(demo_case)

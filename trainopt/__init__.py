@@ -10,9 +10,9 @@ The Python API the command line is built on:
 - :func:`evaluate` reports a split the user gives.
 """
 
-from trainopt.case import Case, load_case
+from trainopt.case.loading import Case, load_case
 from trainopt.errors import InfeasibleError, InputError, PhysicsError, TrainoptError
-from trainopt.station import evaluate, optimize
+from trainopt.station.split import evaluate, optimize
 
 __all__ = [
     "Case",

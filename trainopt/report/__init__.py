@@ -1,100 +1,12 @@
-"""Study reports: one call runs a study and writes its HTML report and tables.
+"""Reports and pictures: what the user reads, on screen and in files.
 
-:func:`envelope_report` and :func:`audit_report` are what the ``trainopt envelope`` and
-``trainopt audit`` commands call; :mod:`~trainopt.report.html` and
-:mod:`~trainopt.report.tables` hold the parts for scripts that want them separately.
-Existing files are never replaced unless ``overwrite=True`` (``--force``), and the check
-comes before any work.
+- :mod:`~trainopt.report.terminal`: the station result as a table on screen;
+- :mod:`~trainopt.report.files`: result JSON, CSV and map pictures of ``optimize --out``;
+- :mod:`~trainopt.report.study_reports`: the envelope and audit studies' HTML reports and
+  tables (:mod:`~trainopt.report.html`, :mod:`~trainopt.report.tables`);
+- :mod:`~trainopt.report.map_picture`: a map with its lines and operating points;
+- :mod:`~trainopt.report.gas_properties`: the ``gas`` command's table.
+
+May import every layer below the CLI (physics, machines, case, dispatch, station, studies);
+never the CLI.
 """
-
-from __future__ import annotations
-
-from pathlib import Path
-
-from trainopt.report.html import write_html
-from trainopt.report.tables import audit_tables, check_free, table_paths, write_tables
-
-__all__ = ["audit_report", "audit_tables", "envelope_report", "write_html", "write_tables"]
-
-_AUDIT_TABLES = ("totals", "monthly", "monthly_by_unit", "by_unit", "flags", "skipped", "bins",
-                 "hours", "unit_hours")
-_ENVELOPE_TABLES = ("turndown", "running_sets", "recycle_free_ranges", "throughput_sweep",
-                    "start_stop")
-
-
-def envelope_report(case_file, out_dir, *, offline=(), named=(), sweep: str | None = None,
-                    points: int = 25, excel: bool = False, overwrite: bool = False,
-                    workers: int | None = None, scheduler=None, progress: bool = True):
-    """Run the envelope study on a case file; write ``envelope.html`` and its tables.
-
-    Parameters
-    ----------
-    case_file : str or Path
-        Station case (YAML).
-    out_dir : str or Path
-        Output folder.
-    offline, named, sweep, points, workers, scheduler, progress
-        See :func:`trainopt.studies.envelope.envelope_study`.
-    excel : bool
-        Tables in one Excel workbook instead of CSV files.
-    overwrite : bool
-        Replace existing files.
-
-    Returns
-    -------
-    (EnvelopeStudy, dict of str to Path)
-    """
-    import trainopt
-    from trainopt.studies.envelope import envelope_study
-
-    out = Path(out_dir)
-    names = _ENVELOPE_TABLES + (("condition_sweep",) if sweep else ())
-    check_free([out / "envelope.html", *table_paths(names, out, excel).values()], overwrite)
-    case = trainopt.load_case(case_file)
-    study = envelope_study(case, offline=offline, named=named, sweep=sweep, points=points,
-                           workers=workers, scheduler=scheduler, progress=progress)
-    written = write_tables(study.tables(), out, excel=excel, overwrite=overwrite)
-    written["html"] = write_html(out / "envelope.html", case=case, envelope=study,
-                                 overwrite=overwrite)
-    return study, written
-
-
-def audit_report(case_file, history_file, columns_file, out_dir, *, binning=None,
-                 objective: str | None = None, sort: bool = False, excel: bool = False,
-                 overwrite: bool = False, workers: int | None = None, scheduler=None,
-                 progress: bool = True):
-    """Audit a history file against a case; write ``audit.html`` and its tables.
-
-    Parameters
-    ----------
-    case_file, history_file, columns_file : str or Path
-        Station case (YAML), history (CSV or Parquet) and its column mapping (YAML).
-    out_dir : str or Path
-        Output folder.
-    binning, objective, workers, scheduler, progress
-        See :func:`trainopt.studies.audit.audit_history`.
-    sort : bool
-        Sort the rows by time instead of refusing a file whose times go backwards.
-    excel, overwrite : bool
-        As for :func:`envelope_report`.
-
-    Returns
-    -------
-    (AuditResult, dict of str to Path)
-    """
-    import trainopt
-    from trainopt.studies.audit import audit_history
-    from trainopt.studies.history_io import read_history
-
-    out = Path(out_dir)
-    check_free([out / "audit.html", *table_paths(_AUDIT_TABLES, out, excel).values()],
-               overwrite)
-    case = trainopt.load_case(case_file)
-    history = read_history(history_file, columns_file, case, sort=sort)
-    result = audit_history(case, history, binning=binning, objective=objective,
-                           workers=workers, scheduler=scheduler, progress=progress)
-    tables = audit_tables(result)
-    written = write_tables(tables, out, excel=excel, overwrite=overwrite)
-    written["html"] = write_html(out / "audit.html", case=case, audit=result,
-                                 audit_tables=tables, overwrite=overwrite)
-    return result, written

@@ -2,7 +2,7 @@
 
 One file, no scripts and no links to fetch: it opens offline in any browser and can be
 mailed as is. Figures are drawn with matplotlib's Agg canvas (no display needed). Every
-report states the caution of :data:`trainopt.result.CAUTION` at its top and bottom.
+report states the caution of :data:`trainopt.station.result.CAUTION` at its top and bottom.
 """
 
 from __future__ import annotations
@@ -18,7 +18,7 @@ from matplotlib.backends.backend_agg import FigureCanvasAgg
 from matplotlib.figure import Figure
 
 from trainopt.report.tables import check_free
-from trainopt.result import CAUTION
+from trainopt.station.result import CAUTION
 
 _INK = "#1f2a33"
 _PALETTE = ["#2a6f97", "#c8553d", "#588157", "#8f5fb0", "#d4a017", "#3d8c95", "#a23e48",
@@ -166,7 +166,7 @@ def recycle_by_month_figure(monthly_by_unit: pd.DataFrame) -> Figure:
 
 def unit_map_figure(audit, unit: str, max_points: int = 3000) -> Figure:
     """A unit's map with the cloud of its recorded (and optimal) operating points."""
-    from trainopt.maps.plot import plot_map
+    from trainopt.report.map_picture import plot_map
 
     train = audit.case.train(unit)
     section = train.sections[0]

@@ -3,9 +3,12 @@
 - :mod:`~trainopt.studies.envelope`: turndown, unit-offline envelopes, throughput and
   condition sweeps;
 - :mod:`~trainopt.studies.audit`: the recycle-loss and load-sharing audit of operating
-  history read by :mod:`~trainopt.studies.history_io`;
+  history read by :mod:`~trainopt.studies.history_reader`;
 - :mod:`~trainopt.studies.parallel`: local processes or a Dask cluster for either.
 
-Studies never build their own physics: they call :class:`trainopt.station.Station`,
-:func:`trainopt.station.evaluate_split`, the dispatch model and the true unit model.
+Studies never build their own physics: they call :class:`trainopt.station.reduced.Station`,
+:func:`trainopt.station.reduced.evaluate_split`, the dispatch model and the true unit model.
+
+May import: :mod:`trainopt.station` and everything below it (case, dispatch, machines,
+physics, errors). Never the reports or the CLI.
 """

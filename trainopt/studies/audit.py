@@ -1,6 +1,6 @@
 """History audit: the power spent on recycle and on poor load sharing, hour by hour.
 
-For every row of a :class:`~trainopt.studies.history_io.History` the audit evaluates the
+For every row of a :class:`~trainopt.studies.history_reader.History` the audit evaluates the
 recorded split on the station's true model (map, gas, driver) and the split the optimiser
 would have chosen for the same delivered flow, units available and conditions. The
 definitions (``docs/studies.md``):
@@ -17,7 +17,7 @@ definitions (``docs/studies.md``):
 
 Speed comes from quantising the conditions: rows are grouped into bins of suction and
 discharge pressure and suction temperature (:class:`Binning`); each bin's units are reduced
-once (:class:`~trainopt.station.Station`) at the mean conditions of its rows and one
+once (:class:`~trainopt.station.reduced.Station`) at the mean conditions of its rows and one
 dispatch model serves every demand in the bin. Ambient temperature changes only the
 drivers: each row's drivers are evaluated at its own ambient, and a bin is reduced at the
 warmest ambient of its rows so that the optimum never counts on gas-turbine power a row did
@@ -47,7 +47,7 @@ from trainopt.studies.audit_worker import (
     _BinTask,
     audit_bin,
 )
-from trainopt.studies.history_io import History
+from trainopt.studies.history_reader import History
 from trainopt.studies.parallel import run_tasks
 
 __all__ = [
@@ -68,8 +68,8 @@ __all__ = [
 
 def gas_recipes(case, history: History) -> dict:
     """Gas label to (components, equation of state), building each gas once to check it."""
-    from trainopt.gas import Gas
-    from trainopt.io_gas import load_gas
+    from trainopt.case.gas_file import load_gas
+    from trainopt.physics.gas import Gas
 
     eos = case.gas.equation_of_state
     out = {}
@@ -105,7 +105,7 @@ def audit_history(case, history: History, *, binning: Binning | None = None,
         The station (its units' statuses are ignored: the history says which ran and,
         through ``available`` columns, which could have).
     history : History
-        From :func:`~trainopt.studies.history_io.read_history`.
+        From :func:`~trainopt.studies.history_reader.read_history`.
     binning : Binning, optional
         Condition bins and demand step.
     objective : str, optional
@@ -122,8 +122,8 @@ def audit_history(case, history: History, *, binning: Binning | None = None,
     -------
     AuditResult
     """
-    from trainopt.station import OBJECTIVES
-    from trainopt.units import Kind, parse_quantity
+    from trainopt.physics.units import Kind, parse_quantity
+    from trainopt.station.reduced import OBJECTIVES
 
     single_section_only(case, "the history audit")
     binning = binning or Binning()
@@ -147,7 +147,7 @@ def audit_history(case, history: History, *, binning: Binning | None = None,
                     spec.recycle_valve.inlet_temperature, Kind.TEMPERATURE,
                     f"{mapping.where}: units.{u}.recycle_valve.inlet_temperature")
     if frame.empty:
-        from trainopt.studies.history_io import describe_skips
+        from trainopt.studies.history_reader import describe_skips
 
         raise InputError(str(history.source or "history"), "no row is left to audit; "
                          + describe_skips(history.skipped).replace("\n", "; "),

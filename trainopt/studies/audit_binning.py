@@ -61,7 +61,7 @@ def condition_bins(frame: pd.DataFrame, binning: Binning) -> list[tuple[tuple, n
     Parameters
     ----------
     frame : pandas.DataFrame
-        :attr:`~trainopt.studies.history_io.History.frame`.
+        :attr:`~trainopt.studies.history_reader.History.frame`.
     binning : Binning
 
     Returns

@@ -13,7 +13,7 @@ from dataclasses import dataclass
 
 import numpy as np
 
-from trainopt.reduction import operate
+from trainopt.dispatch.reduction import operate
 
 
 @dataclass
@@ -26,7 +26,7 @@ class _Curves:
 
     def at_ambient(self, ambient: float, objective: str) -> _Curves:
         """The same curves with the ambient-sensitive drivers re-reduced at ``ambient`` [K]."""
-        from trainopt.station import Station
+        from trainopt.station.reduced import Station
 
         case = dataclasses.replace(self.case, ambient_temperature=ambient)
         sensitive = [t.name for t in case.trains if _ambient_sensitive(t, ambient)]
@@ -52,7 +52,7 @@ def _ambient_sensitive(train, ambient: float) -> bool:
 
 def _optimum(curves: _Curves, available, demand, binning, out) -> dict:
     """Least-objective net and through-flows per unit for each row's demand [kg/s]."""
-    from trainopt.solve import Dispatcher
+    from trainopt.dispatch.solve import Dispatcher
 
     least = curves.least
     names = list(least)

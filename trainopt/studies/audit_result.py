@@ -12,7 +12,7 @@ from dataclasses import dataclass
 import numpy as np
 import pandas as pd
 
-from trainopt.result import CAUTION
+from trainopt.station.result import CAUTION
 from trainopt.studies.audit_binning import Binning
 
 FLOW_BALANCE_TOLERANCE = 0.02
@@ -93,7 +93,7 @@ class AuditResult:
 
     def summary(self) -> str:
         """Totals and skip counts as text, ending with the caution."""
-        from trainopt.studies.history_io import describe_skips
+        from trainopt.studies.history_reader import describe_skips
 
         t = self.totals()
         lines = [
@@ -139,7 +139,7 @@ _UNIT_FLAGS = ("running", "left_of_surge_without_recycle", "head_off_map", "outs
 
 def _assemble(case, history, recipes, groups, results, bins):
     """Per-row and per-unit tables from the bins' arrays, in the history's row order."""
-    from trainopt.gas import Gas
+    from trainopt.physics.gas import Gas
 
     frame = history.frame
     parts = []

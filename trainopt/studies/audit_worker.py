@@ -15,12 +15,12 @@ from dataclasses import dataclass
 
 import numpy as np
 
+from trainopt.dispatch.reduction import LIMIT_NAMES, operate
 from trainopt.errors import TrainoptError, TwoPhaseError
-from trainopt.machines import UnitStatus
-from trainopt.reduction import LIMIT_NAMES, operate
+from trainopt.machines.train import UnitStatus
 from trainopt.studies.audit_binning import Binning
 from trainopt.studies.audit_optimum import _Curves, _evaluate_optimum, _optimum, _power_limited
-from trainopt.studies.history_io import mass_flow
+from trainopt.studies.history_reader import mass_flow
 from trainopt.studies.recycle_valve import valve_mass_flow
 
 RUNNING_FRACTION = 0.05
@@ -55,7 +55,7 @@ class _BinTask:
 
 
 def _gas(recipe: tuple):
-    from trainopt.gas import Gas
+    from trainopt.physics.gas import Gas
 
     components, eos = recipe
     return Gas.from_composition(dict(components), eos)
@@ -82,7 +82,7 @@ def audit_bin(task: _BinTask) -> dict:
 
 
 def _audit_bin(task: _BinTask) -> dict:
-    from trainopt.station import Station
+    from trainopt.station.reduced import Station
 
     p1, p2, t1, t_warm = task.conditions
     gas = _gas(task.gas)

@@ -17,7 +17,7 @@ For a service set, at fixed header conditions:
 - **least throughput with full recycle**: zero; one unit runs at its least through-flow
   and recycles all of it, at the shaft power of that flow.
 
-Everything is read from each unit's :class:`~trainopt.reduction.LeastPowerCurve`; the
+Everything is read from each unit's :class:`~trainopt.dispatch.reduction.LeastPowerCurve`; the
 throughput sweep solves the dispatch model for each running set and evaluates every
 answer on the true model. The station is never modelled here, only called.
 """
@@ -31,11 +31,11 @@ from dataclasses import dataclass
 import numpy as np
 import pandas as pd
 
+from trainopt.dispatch.reduction import LIMIT_NAMES, operate
 from trainopt.errors import InputError, TwoPhaseError
-from trainopt.machines import UnitStatus
-from trainopt.reduction import LIMIT_NAMES, operate
+from trainopt.machines.train import UnitStatus
+from trainopt.physics.units import Kind, parse_quantity
 from trainopt.studies.parallel import run_tasks
-from trainopt.units import Kind, parse_quantity
 
 SWEEP_VARIABLES = {
     "discharge_pressure": (Kind.PRESSURE, Kind.PRESSURE_DIFFERENCE, "bar"),
@@ -95,7 +95,7 @@ def recycle_free_ranges(station, units) -> list[tuple[float, float]]:
 
     Parameters
     ----------
-    station : trainopt.station.Station
+    station : trainopt.station.reduced.Station
     units : iterable of str
         The service set; units whose curve is infeasible are left out.
 
@@ -131,7 +131,7 @@ def turndown(station, sets) -> pd.DataFrame:
 
     Parameters
     ----------
-    station : trainopt.station.Station
+    station : trainopt.station.reduced.Station
         Reduced at the conditions of interest, with every unit of the sets in service.
     sets : list of (label, units)
         From :func:`service_sets`.
@@ -185,7 +185,7 @@ def running_sets(station, units) -> list[tuple[str, ...]]:
 
     Parameters
     ----------
-    station : trainopt.station.Station
+    station : trainopt.station.reduced.Station
     units : iterable of str
 
     Returns
@@ -239,7 +239,7 @@ def running_set_table(station, sets) -> pd.DataFrame:
 
 
 def _dispatcher(station, units, must_run: bool):
-    from trainopt.solve import Dispatcher
+    from trainopt.dispatch.solve import Dispatcher
 
     chosen = [c for c in station.unit_curves() if c.name in units]
     status = UnitStatus.MUST_RUN.value if must_run else UnitStatus.AVAILABLE.value
@@ -272,7 +272,7 @@ def throughput_sweep(station, sets, points: int = 25, free: tuple[str, ...] | No
 
     Parameters
     ----------
-    station : trainopt.station.Station
+    station : trainopt.station.reduced.Station
     sets : list of tuple of str
         Running sets; each runs all its units (recycling below its least flow).
     points : int
@@ -317,7 +317,7 @@ def start_stop_points(station, free, sweep: pd.DataFrame, tolerance: float = 0.0
 
     Parameters
     ----------
-    station : trainopt.station.Station
+    station : trainopt.station.reduced.Station
     free : tuple of str
         The service set of the ``best`` rows of ``sweep``.
     sweep : pandas.DataFrame
@@ -412,8 +412,8 @@ class _PointTask:
 
 def envelope_point(task: _PointTask) -> pd.DataFrame:
     """Turndown of every service set at one value of the swept condition (a task)."""
-    from trainopt.gas import Gas
-    from trainopt.station import Station
+    from trainopt.physics.gas import Gas
+    from trainopt.station.reduced import Station
 
     components, eos = task.gas
     case = dataclasses.replace(task.case, gas=Gas.from_composition(dict(components), eos),
@@ -527,7 +527,7 @@ def envelope_study(case, *, offline=(), named=(), sweep: str | None = None, poin
     -------
     EnvelopeStudy
     """
-    from trainopt.station import Station
+    from trainopt.station.reduced import Station
     from trainopt.studies.audit import single_section_only
 
     single_section_only(case, "the envelope study")

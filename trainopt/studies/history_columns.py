@@ -3,7 +3,7 @@
 :class:`_Reader` turns each mapped column into SI numbers once (pressures, temperatures,
 flows in their basis, valve positions, availability flags, gas labels, timestamps) and
 marks every missing or impossible value under its reason; the rows so marked are skipped
-and counted by :func:`~trainopt.studies.history_io.read_history`, never filled.
+and counted by :func:`~trainopt.studies.history_reader.read_history`, never filled.
 """
 
 from __future__ import annotations
@@ -14,8 +14,8 @@ import numpy as np
 import pandas as pd
 
 from trainopt.errors import InputError
+from trainopt.physics.units import FlowBasis, Kind, parse_flow, parse_quantity
 from trainopt.studies.history_mapping import Column, GasColumn, TimeColumn, ValveColumn
-from trainopt.units import FlowBasis, Kind, parse_flow, parse_quantity
 
 NEGATIVE_ZERO_FRACTION = 0.01
 """Negative readings down to this fraction of the column's 99th-percentile magnitude are
@@ -141,6 +141,6 @@ class _Reader:
 
 
 def _references() -> dict:
-    from trainopt.units import REFERENCE_CONDITIONS
+    from trainopt.physics.units import REFERENCE_CONDITIONS
 
     return REFERENCE_CONDITIONS

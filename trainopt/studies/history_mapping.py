@@ -3,7 +3,7 @@
 A historian export has its own column names and units; the mapping (YAML, see
 ``docs/studies.md``) names them. The pydantic models below are its schema, and
 :func:`load_mapping` reads and validates a mapping file. The history itself is read by
-:func:`~trainopt.studies.history_io.read_history`.
+:func:`~trainopt.studies.history_reader.read_history`.
 """
 
 from __future__ import annotations
@@ -13,8 +13,8 @@ from typing import Literal
 
 from pydantic import BaseModel, ConfigDict, Field, PrivateAttr, ValidationError
 
+from trainopt.case.gas_file import read_yaml
 from trainopt.errors import InputError
-from trainopt.io_gas import read_yaml
 
 Quantity = str | float | int
 

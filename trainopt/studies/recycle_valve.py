@@ -55,7 +55,7 @@ def valve_mass_flow(spec: ValveColumn, position: np.ndarray, gas, inlet_pressure
     spec : ValveColumn
     position : numpy.ndarray
         Opening [-].
-    gas : trainopt.gas.Gas
+    gas : trainopt.physics.gas.Gas
     inlet_pressure, outlet_pressure : float
         Valve inlet (discharge header) and outlet (suction header) pressure [Pa].
     inlet_temperature : float

@@ -102,8 +102,8 @@ def conditions(rng) -> pd.DataFrame:
 
 def monthly_stations(case, cond: pd.DataFrame) -> dict:
     """A reduced Station per month at the month's mean conditions (12 reductions)."""
-    from trainopt.gas import Gas
-    from trainopt.station import Station
+    from trainopt.physics.gas import Gas
+    from trainopt.station.reduced import Station
 
     rich = Gas.from_composition(RICH_GAS, case.gas.equation_of_state)
     out = {}
@@ -142,7 +142,7 @@ def _share(demand: float, running: list[str], lo: dict, hi: dict, fixed: dict) -
 
 def operate_year(cond: pd.DataFrame, stations: dict, rng) -> pd.DataFrame:
     """Commitment, sharing, recycle, speed and power of every unit, hour by hour."""
-    from trainopt.reduction import operate
+    from trainopt.dispatch.reduction import operate
 
     case = stations[1].case
     units = [t.name for t in case.trains]

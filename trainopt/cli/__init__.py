@@ -1,0 +1,9 @@
+"""The ``trainopt`` command: a thin layer over the Python API, one call per command.
+
+- :mod:`~trainopt.cli.app`: the typer application; ``optimize``, ``evaluate``, ``gas`` and
+  ``fit-map``;
+- :mod:`~trainopt.cli.studies`: ``envelope`` and ``audit``;
+- :mod:`~trainopt.cli.failure`: our errors as one line on stderr, exit status 2.
+
+May import everything below it; nothing else in trainopt imports the CLI.
+"""

@@ -1,0 +1,548 @@
+"""The fitted compressor map: head and efficiency against flow and speed, vectorised.
+
+A :class:`CompressorMap` answers, for numpy arrays that broadcast together, the head and
+efficiency at (flow, speed), the speed for (flow, head), the flow for (speed, head), and
+the surge, surge-control and stonewall flows at a speed or at a head. Inside, flow is the
+actual inlet volume flow Q [m³/s], speed N [1/s], head H [J/kg] on the map's declared
+:class:`HeadBasis`, efficiency on the same basis [-].
+
+Forward evaluations (head, efficiency, boundary flow at a speed) extrapolate outside the
+tested range and then warn with a :class:`MapRangeWarning` that says by how much; pass
+``warn=False`` to evaluate silently and use :meth:`CompressorMap.in_tested_range` to ask.
+Inverse evaluations (speed for, flow for, boundary flow at a head) answer only inside the
+tested domain and return NaN where no solution lies there.
+"""
+
+from __future__ import annotations
+
+import warnings
+from dataclasses import dataclass, replace
+
+import numpy as np
+
+from trainopt.errors import InputError
+from trainopt.physics.compression import HeadBasis  # one enum for maps and compression
+
+DEFAULT_CONTROL_LINE_OFFSET = 0.10
+"""Surge control line offset, as a fraction of the surge flow at the same head [-].
+
+10 % of surge flow is common practice for the margin an anti-surge controller keeps;
+each unit may set its own."""
+
+_RANGE_TOLERANCE = 1e-9
+"""Relative slack [-] below which a query counts as on the edge of the tested range."""
+
+
+class MapRangeWarning(UserWarning):
+    """A map was evaluated outside its tested speed or flow range."""
+
+
+@dataclass(frozen=True, eq=False)
+class Monomials:
+    """A sum of monomials in reduced flow and speed.
+
+    ``value = scale * sum_m c_m (Q / flow_ref)**a_m (N / speed_ref)**b_m``, with integer
+    powers ``a_m >= 0`` and ``b_m`` of either sign.
+
+    Parameters
+    ----------
+    coefficients : tuple of float
+        The coefficients ``c_m`` [-].
+    flow_powers, speed_powers : tuple of int
+        The powers ``a_m`` and ``b_m``.
+    flow_ref : float
+        Reference flow [m³/s].
+    speed_ref : float
+        Reference speed [1/s].
+    scale : float
+        Unit of the value (J/kg for head, 1 for efficiency, m³/s for a flow).
+    """
+
+    coefficients: tuple[float, ...]
+    flow_powers: tuple[int, ...]
+    speed_powers: tuple[int, ...]
+    flow_ref: float
+    speed_ref: float
+    scale: float = 1.0
+
+    def __call__(self, flow, speed) -> np.ndarray:
+        """Evaluate at flow [m³/s] and speed [1/s] (arrays broadcast)."""
+        q = np.asarray(flow, dtype=float)[..., None] / self.flow_ref
+        r = np.asarray(speed, dtype=float)[..., None] / self.speed_ref
+        terms = np.asarray(self.coefficients) * q ** np.asarray(self.flow_powers)
+        return self.scale * np.sum(terms * r ** np.asarray(self.speed_powers, dtype=float), axis=-1)
+
+    def in_flow(self, speed) -> np.ndarray:
+        """Coefficients ``P_j(N)`` of ``value = sum_j P_j Q**j`` at a speed.
+
+        Returns
+        -------
+        numpy.ndarray
+            Shape ``(max flow power + 1,) + speed.shape``; ``P_j`` in value units / (m³/s)^j.
+        """
+        r = np.asarray(speed, dtype=float) / self.speed_ref
+        result = np.zeros((max(self.flow_powers) + 1,) + r.shape)
+        for c, a, b in zip(self.coefficients, self.flow_powers, self.speed_powers, strict=True):
+            result[a] += self.scale * c * r ** float(b) / self.flow_ref**a
+        return result
+
+    def similar(self, ratio: float, value_power: int) -> Monomials:
+        """Return the surface seen at flow and speed scaled by ``ratio``.
+
+        That is ``f'(Q, N) = ratio**-value_power * f(ratio Q, ratio N)``, again a sum of the
+        same monomials.
+        """
+        factor = [
+            c * ratio ** (a + b - value_power)
+            for c, a, b in zip(self.coefficients, self.flow_powers, self.speed_powers, strict=True)
+        ]
+        return replace(self, coefficients=tuple(factor))
+
+
+@dataclass(frozen=True, eq=False)
+class SpeedCurve:
+    """A boundary line (surge or stonewall) given as its flow against speed.
+
+    Parameters
+    ----------
+    flow : Monomials
+        Boundary flow [m³/s] as a function of speed (its flow powers are all zero).
+    """
+
+    flow: Monomials
+
+    def flow_at_speed(self, head_surface: Monomials, speed) -> np.ndarray:
+        """Boundary flow [m³/s] at speed [1/s]."""
+        return self.flow(0.0, speed)
+
+    def similar(self, ratio: float) -> SpeedCurve:
+        """Return the line under flow and speed scaled by ``ratio`` (see ``Monomials.similar``)."""
+        return SpeedCurve(self.flow.similar(ratio, 1))
+
+
+@dataclass(frozen=True, eq=False)
+class HeadCurve:
+    """A boundary line given as head against flow, ``H = c0 + c1 Q + c2 Q²``.
+
+    This is how GasLib publishes surge and choke lines. The boundary flow at a speed is where
+    the speed line (quadratic in flow) meets this curve, in closed form.
+
+    Parameters
+    ----------
+    coefficients : tuple of float
+        ``(c0, c1, c2)`` in J/kg, J/kg/(m³/s), J/kg/(m³/s)².
+    """
+
+    coefficients: tuple[float, float, float]
+
+    def head(self, flow) -> np.ndarray:
+        """Head of the line [J/kg] at flow [m³/s]."""
+        c0, c1, c2 = self.coefficients
+        flow = np.asarray(flow, dtype=float)
+        return c0 + c1 * flow + c2 * flow**2
+
+    def flow_at_speed(self, head_surface: Monomials, speed) -> np.ndarray:
+        """Flow [m³/s] where the speed line at speed [1/s] meets this curve.
+
+        The difference ``D(Q) = a + b Q + c Q²`` between speed line and curve is taken at
+        its root where the speed line passes from above the curve to below it
+        (``D' < 0``): ``Q = 2a / (-b + sqrt(b² - 4ac))``, which also holds for ``c = 0``.
+        """
+        p = head_surface.in_flow(speed)
+        if p.shape[0] > 3:
+            raise ValueError("a head curve boundary needs a head surface quadratic in flow")
+        p = np.concatenate([p, np.zeros((3 - p.shape[0],) + p.shape[1:])])
+        a, b, c = (p[j] - self.coefficients[j] for j in range(3))
+        root = np.sqrt(np.where(b * b - 4 * a * c >= 0, b * b - 4 * a * c, np.nan))
+        with np.errstate(divide="ignore", invalid="ignore"):
+            flow = 2 * a / (root - b)
+        return np.where(flow > 0, flow, np.nan)
+
+    def similar(self, ratio: float) -> HeadCurve:
+        """Return the curve with flow and speed scaled by s = ``ratio``: ``H' = H(s Q) / s²``."""
+        c0, c1, c2 = self.coefficients
+        return HeadCurve((c0 / ratio**2, c1 / ratio, c2))
+
+
+BoundaryLine = SpeedCurve | HeadCurve
+
+
+@dataclass(frozen=True, eq=False)
+class CompressorMap:
+    """Head and efficiency of one centrifugal compressor (section) against flow and speed.
+
+    Build one with :func:`trainopt.machines.maps.load_map` (a map file, fitted) or
+    :func:`trainopt.machines.maps.map_from_coefficients` (a published fit). All methods accept
+    numpy arrays that broadcast together and return arrays of the broadcast shape
+    (numpy scalars for scalar input).
+
+    Parameters
+    ----------
+    name : str
+        Name for messages and reports.
+    basis : HeadBasis
+        Basis of head and efficiency.
+    head_surface : Monomials
+        Head [J/kg] against flow [m³/s] and speed [1/s].
+    efficiency_surface : Monomials
+        Efficiency [-] against flow and speed, on ``basis``.
+    surge_line, stonewall_line : SpeedCurve or HeadCurve
+        The left and right boundaries of the tested flow range.
+    speed_range : tuple of float
+        Lowest and highest tested speed [1/s].
+    source : str
+        Where the map came from (file or publication), for messages.
+
+    Notes
+    -----
+    The tested domain is ``speed_min <= N <= speed_max`` and
+    ``Q_surge(N) <= Q <= Q_stonewall(N)``. Within it the map is checked, when built, to
+    give head falling with flow and rising with speed, surge and stonewall flows and heads
+    rising with speed, and efficiency in (0, 1]; the inverse evaluations rely on this.
+    """
+
+    name: str
+    basis: HeadBasis
+    head_surface: Monomials
+    efficiency_surface: Monomials
+    surge_line: BoundaryLine
+    stonewall_line: BoundaryLine
+    speed_range: tuple[float, float]
+    source: str = ""
+
+    @property
+    def speed_min(self) -> float:
+        """Lowest tested speed [1/s]."""
+        return self.speed_range[0]
+
+    @property
+    def speed_max(self) -> float:
+        """Highest tested speed [1/s]."""
+        return self.speed_range[1]
+
+    # forward evaluations -------------------------------------------------------------
+
+    def head(self, flow, speed, *, warn: bool = True) -> np.ndarray:
+        """Head [J/kg] at actual inlet flow [m³/s] and speed [1/s]; warns outside the range."""
+        if warn:
+            self._warn_outside(flow, speed)
+        return _out(self.head_surface(flow, speed))
+
+    def efficiency(self, flow, speed, *, warn: bool = True) -> np.ndarray:
+        """Efficiency [-] at flow [m³/s] and speed [1/s], on the map's basis."""
+        if warn:
+            self._warn_outside(flow, speed)
+        return _out(self.efficiency_surface(flow, speed))
+
+    def surge_flow_at_speed(self, speed, *, warn: bool = True) -> np.ndarray:
+        """Surge flow [m³/s] on the speed line at speed [1/s]."""
+        if warn:
+            self._warn_outside(None, speed)
+        return _out(self.surge_line.flow_at_speed(self.head_surface, speed))
+
+    def stonewall_flow_at_speed(self, speed, *, warn: bool = True) -> np.ndarray:
+        """Stonewall flow [m³/s] on the speed line at speed [1/s]."""
+        if warn:
+            self._warn_outside(None, speed)
+        return _out(self.stonewall_line.flow_at_speed(self.head_surface, speed))
+
+    # inverse evaluations (tested domain only, NaN elsewhere) -------------------------
+
+    def surge_flow_at_head(self, head) -> np.ndarray:
+        """Surge flow [m³/s] at head [J/kg]; NaN outside the surge heads of the tested speeds."""
+        return _out(self._boundary_flow_at_head(self.surge_line, head))
+
+    def stonewall_flow_at_head(self, head) -> np.ndarray:
+        """Stonewall flow [m³/s] at head [J/kg]; NaN outside the tested speeds."""
+        return _out(self._boundary_flow_at_head(self.stonewall_line, head))
+
+    def control_line_flow_at_head(self, head, offset=DEFAULT_CONTROL_LINE_OFFSET) -> np.ndarray:
+        """Surge control line flow ``(1 + offset) Q_surge(H)`` [m³/s] at head [J/kg].
+
+        Parameters
+        ----------
+        head : array_like
+            Head [J/kg].
+        offset : array_like
+            Control line offset as a fraction of the surge flow at the same head [-];
+            default 0.10 (common practice).
+        """
+        return _out((1.0 + np.asarray(offset, dtype=float)) * self.surge_flow_at_head(head))
+
+    def flow_for(self, speed, head) -> np.ndarray:
+        """Flow [m³/s] giving head [J/kg] at speed [1/s], between surge and stonewall; else NaN."""
+        speed, head = np.broadcast_arrays(np.asarray(speed, float), np.asarray(head, float))
+        inside = self._speed_inside(speed)
+        speed = np.where(inside, speed, np.nan)
+        low = self.surge_line.flow_at_speed(self.head_surface, speed)
+        high = self.stonewall_line.flow_at_speed(self.head_surface, speed)
+        flow = _solve_monotone(lambda q: self.head_surface(q, speed) - head, low, high, head)
+        return _out(flow)
+
+    def speed_for(self, flow, head) -> np.ndarray:
+        """Speed [1/s] giving head [J/kg] at flow [m³/s] inside the tested domain; else NaN.
+
+        Notes
+        -----
+        At a given flow the tested domain spans the speeds between the one whose stonewall
+        flow equals it (or ``speed_min``) and the one whose surge flow equals it (or
+        ``speed_max``); head rises with speed there, so the root is unique.
+        """
+        flow, head = np.broadcast_arrays(np.asarray(flow, float), np.asarray(head, float))
+        low = self._speed_where_boundary_flow(self.stonewall_line, flow, beyond_high=np.nan)
+        high = self._speed_where_boundary_flow(self.surge_line, flow, beyond_low=np.nan)
+        low = np.where(low <= high, low, np.nan)
+        speed = _solve_monotone(lambda n: self.head_surface(flow, n) - head, low, high, head)
+        return _out(speed)
+
+    # tested range ----------------------------------------------------------------------
+
+    def in_tested_range(self, flow, speed) -> np.ndarray:
+        """Tell where (flow [m³/s], speed [1/s]) lies inside the tested domain (bool array)."""
+        excess = self._excess(flow, speed)
+        return np.all([e <= _RANGE_TOLERANCE for e in excess.values()], axis=0)[()]
+
+    def mach_similar(self, sound_speed_ratio: float) -> CompressorMap:
+        """Apply the map where the inlet sound speed differs from the test's (Mach similarity).
+
+        Parameters
+        ----------
+        sound_speed_ratio : float
+            Inlet sound speed of the test divided by that of the service, ``a_test / a`` [-].
+
+        Returns
+        -------
+        CompressorMap
+            The map at equal machine Mach number and flow coefficient:
+            ``H(Q, N) = s**-2 H_test(s Q, s N)``, ``eta(Q, N) = eta_test(s Q, s N)``,
+            ``Q_boundary(N) = Q_boundary,test(s N) / s`` and tested speeds divided by ``s``,
+            where ``s = a_test / a``. See docs/maps.md for when to use it.
+        """
+        s = float(sound_speed_ratio)
+        if not s > 0:
+            raise ValueError(f"sound speed ratio must be positive, got {s!r}")
+        return replace(
+            self,
+            head_surface=self.head_surface.similar(s, 2),
+            efficiency_surface=self.efficiency_surface.similar(s, 0),
+            surge_line=self.surge_line.similar(s),
+            stonewall_line=self.stonewall_line.similar(s),
+            speed_range=(self.speed_min / s, self.speed_max / s),
+        )
+
+    def tested_grid(self, speeds=41, flows: int = 41) -> tuple[np.ndarray, np.ndarray]:
+        """Flows and speeds on a grid over the tested domain.
+
+        Parameters
+        ----------
+        speeds : int or array_like
+            Number of speeds across the tested range, or the speeds themselves [1/s].
+        flows : int
+            Number of flows on each speed line, from its surge to its stonewall flow.
+
+        Returns
+        -------
+        flow, speed : numpy.ndarray
+            Flow [m³/s] of shape ``(len(speeds), flows)`` and speed [1/s] of shape
+            ``(len(speeds), 1)``; each row is one speed line.
+        """
+        if np.ndim(speeds) == 0:
+            speeds = np.linspace(self.speed_min, self.speed_max, int(speeds))
+        speed = np.asarray(speeds, dtype=float).reshape(-1, 1)
+        surge = self.surge_line.flow_at_speed(self.head_surface, speed)
+        stonewall = self.stonewall_line.flow_at_speed(self.head_surface, speed)
+        return surge + (stonewall - surge) * np.linspace(0.0, 1.0, flows), speed
+
+    # helpers ---------------------------------------------------------------------------
+
+    def _speed_inside(self, speed) -> np.ndarray:
+        slack = _RANGE_TOLERANCE * self.speed_max
+        return (speed >= self.speed_min - slack) & (speed <= self.speed_max + slack)
+
+    def _boundary_flow_at_head(self, line: BoundaryLine, head) -> np.ndarray:
+        head = np.asarray(head, dtype=float)
+
+        def boundary_head(speed):
+            return self.head_surface(line.flow_at_speed(self.head_surface, speed), speed) - head
+
+        lo, hi = np.full(head.shape, self.speed_min), np.full(head.shape, self.speed_max)
+        speed = _solve_monotone(boundary_head, lo, hi, head)
+        return line.flow_at_speed(self.head_surface, speed)
+
+    def _speed_where_boundary_flow(
+        self, line: BoundaryLine, flow, *, beyond_low=None, beyond_high=None
+    ) -> np.ndarray:
+        """Speed in the tested range where a boundary passes through flow.
+
+        Where the boundary lies right of ``flow`` already at ``speed_min`` the answer is
+        ``speed_min`` (or ``beyond_low``); where it lies left of it still at ``speed_max``
+        the answer is ``speed_max`` (or ``beyond_high``).
+        """
+        lo, hi = np.full(flow.shape, self.speed_min), np.full(flow.shape, self.speed_max)
+        at_lo = line.flow_at_speed(self.head_surface, lo)
+        at_hi = line.flow_at_speed(self.head_surface, hi)
+        speed = _solve_monotone(
+            lambda n: line.flow_at_speed(self.head_surface, n) - flow, lo, hi, flow
+        )
+        below = flow < at_lo * (1 - _RANGE_TOLERANCE)
+        above = flow > at_hi * (1 + _RANGE_TOLERANCE)
+        speed = np.where(below, lo if beyond_low is None else beyond_low, speed)
+        return np.where(above, hi if beyond_high is None else beyond_high, speed)
+
+    def _excess(self, flow, speed) -> dict[str, np.ndarray]:
+        """Relative distance [-] outside each edge of the tested range (0 inside)."""
+        speed = np.asarray(speed, dtype=float)
+        result = {
+            "below the lowest tested speed": (self.speed_min - speed) / self.speed_min,
+            "above the highest tested speed": (speed - self.speed_max) / self.speed_max,
+        }
+        if flow is not None:
+            flow = np.asarray(flow, dtype=float)
+            surge = self.surge_line.flow_at_speed(self.head_surface, speed)
+            stonewall = self.stonewall_line.flow_at_speed(self.head_surface, speed)
+            result["left of the surge flow"] = (surge - flow) / surge
+            result["right of the stonewall flow"] = (flow - stonewall) / stonewall
+        shape = np.broadcast_shapes(*(np.shape(v) for v in result.values()))
+        return {
+            k: np.broadcast_to(np.nan_to_num(np.maximum(v, 0.0)), shape) for k, v in result.items()
+        }
+
+    def _warn_outside(self, flow, speed) -> None:
+        excess = self._excess(flow, speed)
+        outside = np.any([e > _RANGE_TOLERANCE for e in excess.values()], axis=0)
+        if not np.any(outside):
+            return
+        parts = [
+            f"up to {100 * e.max():.3g} % {edge}"
+            for edge, e in excess.items()
+            if np.any(e > _RANGE_TOLERANCE)
+        ]
+        warnings.warn(
+            f"map {self.name!r}: {np.count_nonzero(outside)} of {outside.size} queries lie "
+            f"outside the tested range ({self.speed_min * 60:.0f}-{self.speed_max * 60:.0f} "
+            f"rpm), extrapolated: {'; '.join(parts)}",
+            MapRangeWarning,
+            stacklevel=3,
+        )
+
+
+def _out(values) -> np.ndarray:
+    """Numpy scalar for 0-d results, the array otherwise."""
+    values = np.asarray(values, dtype=float)
+    return values[()] if values.ndim == 0 else values
+
+
+def _solve_monotone(func, lo, hi, scale, *, iterations: int = 200) -> np.ndarray:
+    """Vectorised root of a function monotone on each bracket ``[lo, hi]``.
+
+    Illinois variant of regula falsi (Dowell, M., Jarratt, P. 1971, BIT 11:168-174),
+    superlinear and bracketed; it stops where ``|func| <= 1e-13 scale`` or the bracket has
+    shrunk to rounding. Returns NaN where the bracket is NaN or ``func`` has the same sign
+    at both ends; a bracket end within ``_RANGE_TOLERANCE * scale`` of a root (a root on the
+    edge of the tested domain, where the bracket itself came from a root) is the root.
+    ``scale`` is the size of the values ``func`` compares (e.g. the target head).
+    """
+    lo, hi = np.broadcast_arrays(np.asarray(lo, float), np.asarray(hi, float))
+    lo, hi = lo.copy(), hi.copy()
+    scale = np.broadcast_to(np.maximum(np.abs(scale), 1e-300), lo.shape)
+    ftol = 1e-13 * scale
+    f_lo, f_hi = func(lo), func(hi)
+    root = np.full(lo.shape, np.nan)
+    done = ~(np.isfinite(f_lo) & np.isfinite(f_hi))
+    for end, f_end in ((lo, f_lo), (hi, f_hi)):
+        hit = ~done & (np.abs(f_end) <= _RANGE_TOLERANCE * scale)
+        root[hit], done = end[hit], done | hit
+    done |= np.sign(f_lo) == np.sign(f_hi)
+    side = np.zeros(lo.shape, dtype=int)
+    for _ in range(iterations):
+        if done.all():
+            break
+        with np.errstate(divide="ignore", invalid="ignore"):
+            x = (lo * f_hi - hi * f_lo) / (f_hi - f_lo)
+        x = np.where(
+            np.isfinite(x) & (x >= np.minimum(lo, hi)) & (x <= np.maximum(lo, hi)),
+            x,
+            0.5 * (lo + hi),
+        )
+        x = np.where(done, lo, x)
+        f_x = func(x)
+        same_as_lo = np.sign(f_x) == np.sign(f_lo)
+        move_lo, move_hi = ~done & same_as_lo, ~done & ~same_as_lo
+        f_hi = np.where(move_lo & (side == -1), 0.5 * f_hi, f_hi)
+        f_lo = np.where(move_hi & (side == 1), 0.5 * f_lo, f_lo)
+        lo, f_lo = np.where(move_lo, x, lo), np.where(move_lo, f_x, f_lo)
+        hi, f_hi = np.where(move_hi, x, hi), np.where(move_hi, f_x, f_hi)
+        side = np.where(move_lo, -1, np.where(move_hi, 1, side))
+        converged = ~done & ((np.abs(f_x) <= ftol) | (np.abs(hi - lo) <= 4e-16 * np.abs(x)))
+        root[converged] = x[converged]
+        done |= converged
+    return root
+
+
+def check_map_shape(compressor_map: CompressorMap, field: str, samples: int = 41) -> None:
+    """Refuse a map whose shape breaks the physics inside its tested domain.
+
+    Parameters
+    ----------
+    compressor_map : CompressorMap
+        The map to check.
+    field : str
+        Where the map came from, for the error message.
+    samples : int
+        Grid points per direction.
+
+    Raises
+    ------
+    InputError
+        If, on a grid over the tested domain, the surge flow is not below the stonewall
+        flow, a boundary flow or head does not rise with speed, head does not fall with flow
+        along a speed line or rise with speed at a fixed flow, or efficiency leaves (0, 1].
+    """
+    m = compressor_map
+    fix = "check the map's points and units, or give more speed lines or points"
+    flows, speed_column = m.tested_grid(samples if m.speed_max > m.speed_min else 1, samples)
+    speeds, surge, stonewall = speed_column[:, 0], flows[:, 0], flows[:, -1]
+    rpm = speeds * 60.0
+
+    def refuse(problem, where):
+        raise InputError(field, f"the map {problem}, worst near {rpm[where]:.0f} rpm", fix)
+
+    for name, boundary in (("surge", surge), ("stonewall", stonewall)):
+        missing = ~(np.isfinite(boundary) & (boundary > 0))
+        if np.any(missing):
+            refuse(f"has no positive {name} flow", int(np.argmax(missing)))
+    if np.any(surge >= stonewall):
+        refuse(
+            "has its surge flow at or above its stonewall flow", int(np.argmax(surge >= stonewall))
+        )
+    heads = m.head_surface(flows, speed_column)
+    efficiency = m.efficiency_surface(flows, speed_column)
+    rising = np.any(np.diff(heads, axis=1) >= 0, axis=1)
+    if np.any(rising):
+        rise = np.max(heads, axis=1) / heads[:, 0] - 1
+        refuse(
+            f"gives head rising with flow along its speed lines (up to {100 * rise.max():.2g} "
+            "% above the head at the surge flow)",
+            int(np.argmax(rise)),
+        )
+    bad = ~((efficiency > 0) & (efficiency <= 1))
+    if np.any(bad):
+        refuse(
+            f"gives efficiency {efficiency[bad][0]:.3f}, outside (0, 1]", int(np.argmax(bad.any(1)))
+        )
+    if len(speeds) == 1:
+        return
+    for name, flows_b in (("surge", surge), ("stonewall", stonewall)):
+        if np.any(np.diff(flows_b) <= 0):
+            refuse(f"has its {name} flow falling with speed", int(np.argmax(np.diff(flows_b) <= 0)))
+        boundary_heads = m.head_surface(flows_b, speeds)
+        if np.any(np.diff(boundary_heads) <= 0):
+            refuse(
+                f"has its {name} head falling with speed",
+                int(np.argmax(np.diff(boundary_heads) <= 0)),
+            )
+    upper = m.head_surface(flows[:-1], speeds[1:, None])
+    inside = (flows[:-1] >= surge[1:, None]) & (flows[:-1] <= stonewall[1:, None])
+    crossing = inside & (upper <= heads[:-1])
+    if np.any(crossing):
+        refuse("gives head falling with speed at a fixed flow", int(np.argmax(crossing.any(1))))

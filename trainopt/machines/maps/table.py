@@ -1,0 +1,473 @@
+"""Map input: our map file format (YAML metadata + CSV table) and published-coefficient maps.
+
+A map is a YAML file of metadata that names a CSV table of measured points, or that holds
+a published fit as coefficients (GasLib layout). The format is described in docs/maps.md.
+Every problem found in the input raises :class:`~trainopt.errors.InputError` naming
+``file:line:column`` (CSV: line number and column name; YAML: line and column numbers).
+"""
+
+from __future__ import annotations
+
+import csv
+import re
+from dataclasses import dataclass, field
+from enum import Enum
+from pathlib import Path
+
+import numpy as np
+import pandas as pd
+import yaml
+
+from trainopt.errors import InputError
+from trainopt.machines.maps.coefficients import coefficient_map_from_yaml
+from trainopt.machines.maps.compressor_map import (
+    CompressorMap,
+    HeadBasis,
+)
+from trainopt.physics.units import Kind, parse_quantity
+
+MIN_POINTS_PER_LINE = 3
+"""Fewest points a speed line may have: a surge point and two more, enough to fix a
+quadratic in flow along the line."""
+
+
+class PointKind(Enum):
+    """Role of a point on its speed line (the ``point`` column)."""
+
+    SPEED_LINE = ""
+    SURGE = "surge"
+    STONEWALL = "stonewall"
+
+
+@dataclass(frozen=True)
+class TestConditions:
+    """Gas and suction conditions of the test that produced a map (for the record).
+
+    Parameters
+    ----------
+    gas : str or dict
+        Description of the test gas, or its composition as mole fractions [-].
+    suction_pressure : float or None
+        Absolute suction pressure of the test [Pa].
+    suction_temperature : float or None
+        Suction temperature of the test [K].
+    """
+
+    __test__ = False  # not a pytest test class
+
+    gas: str | dict[str, float] | None = None
+    suction_pressure: float | None = None
+    suction_temperature: float | None = None
+
+
+@dataclass(frozen=True, eq=False)
+class MapTable:
+    """Measured points of a map, validated, in SI, with where each came from.
+
+    Parameters
+    ----------
+    name : str
+        Name of the machine.
+    basis : HeadBasis
+        Basis of head and efficiency.
+    points : pandas.DataFrame
+        One row per point: ``speed`` [1/s], ``flow`` [m³/s], ``head`` [J/kg],
+        ``efficiency`` [-] (NaN where not given), ``kind`` (:class:`PointKind`) and
+        ``line`` (line number in the CSV file).
+    path : str
+        The CSV file, for messages.
+    header_line : int
+        Line number of the CSV header.
+    units : dict
+        Column name to the unit written in the header, for messages and reports.
+    test_conditions : TestConditions
+        Gas and suction conditions of the test.
+    description : str
+        Free text from the metadata (source, caveats).
+    speed_dependence : str or None
+        Fit option from the metadata (``fit.speed_dependence``), if given.
+    speed_dependence_field : str
+        Where that option was written (``file:line:column``).
+    """
+
+    name: str
+    basis: HeadBasis
+    points: pd.DataFrame
+    path: str
+    header_line: int
+    units: dict[str, str]
+    test_conditions: TestConditions = field(default_factory=TestConditions)
+    description: str = ""
+    speed_dependence: str | None = None
+    speed_dependence_field: str = ""
+
+    @property
+    def speed_lines(self) -> list[pd.DataFrame]:
+        """The points of each speed line, lines by rising speed, points by rising flow."""
+        ordered = self.points.sort_values(["speed", "flow"], kind="stable")
+        return [group for _, group in ordered.groupby("speed", sort=True)]
+
+
+_COLUMNS = {
+    "speed": Kind.SPEED,
+    "flow": Kind.VOLUME_FLOW,
+    "head": Kind.HEAD,
+    "efficiency": Kind.DIMENSIONLESS,
+    "point": None,
+}
+_REQUIRED = ("speed", "flow", "head")
+_EXAMPLE = {
+    "speed": "speed [rpm]",
+    "flow": "flow [m3/s]",
+    "head": "head [kJ/kg]",
+    "efficiency": "efficiency [-]",
+}
+_HEADER_CELL = re.compile(r"^\s*([A-Za-z_]+)\s*(?:\[\s*(.*?)\s*\])?\s*$")
+_METADATA_KEYS = {"name", "description", "basis", "table", "coefficients", "test_conditions", "fit"}
+
+
+def read_map_source(path: str | Path) -> MapTable | CompressorMap:
+    """Read a map file: a table of points to be fitted, or a published-coefficient map.
+
+    Parameters
+    ----------
+    path : str or Path
+        The YAML metadata file, or the CSV table with its YAML metadata beside it (same
+        name, ``.yaml``).
+
+    Returns
+    -------
+    MapTable or CompressorMap
+        The validated points, or the map built from published coefficients.
+
+    Raises
+    ------
+    InputError
+        Naming ``file:line:column`` and the reason, for any problem in the input.
+    """
+    path = Path(path)
+    if path.suffix.lower() == ".csv":
+        meta_path = path.with_suffix(".yaml")
+        if not meta_path.exists():
+            raise InputError(
+                str(path),
+                f"no metadata file {meta_path.name} beside the table",
+                f"write {meta_path.name} with at least 'basis: polytropic' (or isentropic) "
+                f"and 'table: {path.name}'",
+            )
+    else:
+        meta_path = path
+    if not meta_path.exists():
+        raise InputError(str(meta_path), "no such map file")
+    meta, marks = _read_yaml(meta_path)
+    for key in meta:
+        if key not in _METADATA_KEYS:
+            raise InputError(
+                marks[key], f"unknown key {key!r}", f"use only {', '.join(sorted(_METADATA_KEYS))}"
+            )
+    name = str(meta.get("name", meta_path.stem))
+    basis = _basis(meta, marks, meta_path)
+    if "coefficients" in meta:
+        return coefficient_map_from_yaml(meta["coefficients"], marks, name, basis, str(meta_path))
+    if "table" not in meta:
+        raise InputError(
+            str(meta_path),
+            "no 'table' (nor 'coefficients') key",
+            "name the CSV table of points, e.g. 'table: unit_a.csv'",
+        )
+    table_path = meta_path.parent / str(meta["table"])
+    if not table_path.exists():
+        raise InputError(marks["table"], f"the table {table_path} does not exist")
+    fit = meta.get("fit") or {}
+    if not isinstance(fit, dict) or set(fit) - {"speed_dependence"}:
+        raise InputError(
+            marks["fit"],
+            "expected 'fit:' with only 'speed_dependence:' under it",
+            "e.g. 'fit: {speed_dependence: three_term}'",
+        )
+    return _read_csv(
+        table_path,
+        name=name,
+        basis=basis,
+        test_conditions=_test_conditions(meta.get("test_conditions"), marks),
+        description=str(meta.get("description", "")).strip(),
+        speed_dependence=fit.get("speed_dependence"),
+        speed_dependence_field=marks.get("fit.speed_dependence", marks.get("fit", "")),
+    )
+
+
+# metadata ------------------------------------------------------------------------------
+
+
+def _read_yaml(path: Path) -> tuple[dict, dict[str, str]]:
+    """Read a YAML mapping and, for each key path (``fit.speed_dependence``), its location."""
+    text = path.read_text()
+    try:
+        root = yaml.compose(text, Loader=yaml.SafeLoader)
+        data = yaml.safe_load(text)
+    except yaml.YAMLError as exc:
+        mark = getattr(exc, "problem_mark", None)
+        where = f"{path}:{mark.line + 1}:{mark.column + 1}" if mark else str(path)
+        raise InputError(where, f"not valid YAML: {getattr(exc, 'problem', exc)}") from exc
+    if not isinstance(data, dict):
+        raise InputError(f"{path}:1:1", "expected a mapping of keys (name, basis, table, ...)")
+    marks: dict[str, str] = {}
+
+    def walk(node, prefix):
+        if isinstance(node, yaml.MappingNode):
+            for key, value in node.value:
+                mark = key.start_mark
+                marks[prefix + str(key.value)] = f"{path}:{mark.line + 1}:{mark.column + 1}"
+                walk(value, f"{prefix}{key.value}.")
+
+    walk(root, "")
+    return data, marks
+
+
+def _basis(meta: dict, marks: dict[str, str], path: Path) -> HeadBasis:
+    if "basis" not in meta:
+        raise InputError(
+            str(path), "no 'basis' key", "add 'basis: polytropic' or 'basis: isentropic'"
+        )
+    try:
+        return HeadBasis(str(meta["basis"]).strip().lower())
+    except ValueError:
+        raise InputError(
+            marks["basis"],
+            f"basis {meta['basis']!r} is not known",
+            "write polytropic or isentropic",
+        ) from None
+
+
+def _test_conditions(raw, marks: dict[str, str]) -> TestConditions:
+    if raw is None:
+        return TestConditions()
+    if not isinstance(raw, dict):
+        raise InputError(
+            marks["test_conditions"],
+            "expected a mapping (gas, suction_pressure, suction_temperature)",
+        )
+    known = {
+        "gas": None,
+        "suction_pressure": Kind.PRESSURE,
+        "suction_temperature": Kind.TEMPERATURE,
+    }
+    values = {}
+    for key, value in raw.items():
+        where = marks[f"test_conditions.{key}"]
+        if key not in known:
+            raise InputError(where, f"unknown key {key!r}", f"use {', '.join(known)}")
+        values[key] = value if known[key] is None else parse_quantity(value, known[key], where)
+    gas = values.get("gas")
+    if isinstance(gas, dict):
+        total = sum(float(x) for x in gas.values())
+        if abs(total - 1.0) > 1e-3:
+            raise InputError(
+                marks["test_conditions.gas"], f"mole fractions add up to {total:.4f}, not 1"
+            )
+    return TestConditions(**values)
+
+
+# table ---------------------------------------------------------------------------------
+
+
+def _read_csv(path: Path, **metadata) -> MapTable:
+    lines = path.read_text().splitlines()
+    rows = [
+        (number, text)
+        for number, text in enumerate(lines, start=1)
+        if text.strip() and not text.lstrip().startswith("#")
+    ]
+    if not rows:
+        raise InputError(
+            f"{path}:1:1",
+            "the table is empty",
+            "write a header 'speed [rpm],flow [m3/s],head [kJ/kg],efficiency [-],point'",
+        )
+    header_line, header_text = rows[0]
+    names, factors, units = _header(path, header_line, header_text)
+    records = []
+    for number, text in rows[1:]:
+        cells = next(csv.reader([text]))
+        if len(cells) != len(names):
+            raise InputError(
+                f"{path}:{number}:{names[min(len(cells), len(names)) - 1]}",
+                f"{len(cells)} cells where the header has {len(names)}",
+            )
+        records.append(_record(path, number, dict(zip(names, cells, strict=True)), factors, units))
+    points = pd.DataFrame(records, columns=["speed", "flow", "head", "efficiency", "kind", "line"])
+    table = MapTable(
+        points=points, path=str(path), header_line=header_line, units=units, **metadata
+    )
+    _check_lines(table, factors)
+    return table
+
+
+def _header(path: Path, number: int, text: str):
+    names, factors, units = [], {}, {}
+    for cell in next(csv.reader([text])):
+        match = _HEADER_CELL.match(cell)
+        where = f"{path}:{number}:{cell.strip()}"
+        if not match or match.group(1).lower() not in _COLUMNS:
+            raise InputError(
+                where,
+                f"unknown column {cell.strip()!r}",
+                f"use {', '.join(_COLUMNS)}, each numeric one with its unit, e.g. 'flow [m3/s]'",
+            )
+        name, unit = match.group(1).lower(), match.group(2)
+        where = f"{path}:{number}:{name}"
+        if name in names:
+            raise InputError(where, f"column {name!r} appears twice")
+        kind = _COLUMNS[name]
+        if kind is not None:
+            if not unit:
+                raise InputError(
+                    where,
+                    f"column {name!r} has no unit",
+                    f"write it with its unit in brackets, e.g. '{_EXAMPLE[name]}'",
+                )
+            factors[name] = 1.0 if unit == "-" else parse_quantity(f"1 {unit}", kind, where)
+            units[name] = unit
+        names.append(name)
+    for name in _REQUIRED:
+        if name not in names:
+            raise InputError(
+                f"{path}:{number}:{name}",
+                f"no {name!r} column",
+                f"the header needs {', '.join(_REQUIRED)} with units",
+            )
+    return names, factors, units
+
+
+def _record(path: Path, number: int, cells: dict[str, str], factors, units) -> tuple:
+    values = {}
+    for name, factor in factors.items():
+        text = cells[name].strip()
+        where = f"{path}:{number}:{name}"
+        if not text:
+            if name == "efficiency":
+                values[name] = np.nan
+                continue
+            raise InputError(where, f"no {name} value")
+        try:
+            value = float(text) * factor
+        except ValueError:
+            raise InputError(where, f"{text!r} is not a number") from None
+        if not np.isfinite(value):
+            raise InputError(where, f"{text!r} is not a finite number")
+        if name == "efficiency" and not 0 < value <= 1:
+            raise InputError(
+                where,
+                f"efficiency {text} {units[name]} is not in (0, 1]",
+                "give efficiency as a fraction [-] or in percent [%]",
+            )
+        if name != "efficiency" and value <= 0:
+            raise InputError(
+                where,
+                f"{name} {text} {units[name]} is not positive",
+                "flow, head and speed on a map are positive",
+            )
+        values[name] = value
+    marker = cells.get("point", "").strip().lower()
+    try:
+        kind = PointKind(marker)
+    except ValueError:
+        raise InputError(
+            f"{path}:{number}:point",
+            f"unknown point marker {marker!r}",
+            "write surge, stonewall or leave it empty",
+        ) from None
+    return (
+        values["speed"],
+        values["flow"],
+        values["head"],
+        values.get("efficiency", np.nan),
+        kind,
+        number,
+    )
+
+
+def _check_lines(table: MapTable, factors: dict[str, float]) -> None:
+    """Refuse speed lines that are too short, unordered, rising or crossing."""
+    path = table.path
+
+    def show(name, value):
+        return f"{value / factors[name]:.5g} {table.units[name]}"
+
+    lines = table.speed_lines
+    with_stonewall = [(line.kind == PointKind.STONEWALL).any() for line in lines]
+    for line, has_stonewall in zip(lines, with_stonewall, strict=True):
+        speed = show("speed", line.speed.iloc[0])
+        first = int(line.line.min())
+        if len(line) < MIN_POINTS_PER_LINE:
+            raise InputError(
+                f"{path}:{first}:speed",
+                f"the speed line at {speed} has {len(line)} point(s); "
+                f"at least {MIN_POINTS_PER_LINE} are needed",
+                "give the surge point and at least two more points on each line",
+            )
+        given = int(line.efficiency.notna().sum())
+        if given < MIN_POINTS_PER_LINE:
+            raise InputError(
+                f"{path}:{first}:efficiency",
+                f"the speed line at {speed} has {given} efficiency value(s); "
+                f"at least {MIN_POINTS_PER_LINE} are needed",
+            )
+        duplicate = line.flow.duplicated()
+        if duplicate.any():
+            raise InputError(
+                f"{path}:{int(line.line[duplicate].iloc[0])}:flow",
+                f"two points at the same flow on the speed line at {speed}",
+            )
+        for kind, position, edge in (
+            (PointKind.SURGE, 0, "lowest"),
+            (PointKind.STONEWALL, -1, "highest"),
+        ):
+            marked = line[line.kind == kind]
+            if len(marked) > 1:
+                raise InputError(
+                    f"{path}:{int(marked.line.iloc[1])}:point",
+                    f"a second {kind.value} point on the speed line at {speed}",
+                )
+            if len(marked) == 1 and marked.index[0] != line.index[position]:
+                raise InputError(
+                    f"{path}:{int(marked.line.iloc[0])}:point",
+                    f"the {kind.value} point is not the {edge}-flow point of the "
+                    f"speed line at {speed}",
+                )
+        if not (line.kind == PointKind.SURGE).any():
+            raise InputError(
+                f"{path}:{first}:point",
+                f"the speed line at {speed} has no surge point",
+                "mark its lowest-flow point 'surge'",
+            )
+        if any(with_stonewall) and not has_stonewall:
+            raise InputError(
+                f"{path}:{first}:point",
+                f"the speed line at {speed} has no stonewall point but other lines do",
+                "mark the highest-flow point 'stonewall' on every line or on none",
+            )
+        rising = np.diff(line["head"].to_numpy()) >= 0
+        if rising.any():
+            i = int(np.argmax(rising))
+            raise InputError(
+                f"{path}:{int(line.line.iloc[i + 1])}:head",
+                f"head rises with flow on the speed line at {speed}: "
+                f"{show('head', line['head'].iloc[i + 1])} at "
+                f"{show('flow', line.flow.iloc[i + 1])} after "
+                f"{show('head', line['head'].iloc[i])} at {show('flow', line.flow.iloc[i])}",
+                "head must fall with flow along a speed line; check the points",
+            )
+    for lower, upper in zip(lines, lines[1:], strict=False):
+        for own, other, sign in ((lower, upper, 1.0), (upper, lower, -1.0)):
+            within = (own.flow >= other.flow.min()) & (own.flow <= other.flow.max())
+            other_head = np.interp(own.flow, other.flow, other["head"])
+            crossing = within & (sign * (other_head - own["head"]) <= 0)
+            if crossing.any():
+                row = own[crossing].iloc[0]
+                raise InputError(
+                    f"{path}:{int(row.line)}:head",
+                    f"the speed lines at {show('speed', lower.speed.iloc[0])} and "
+                    f"{show('speed', upper.speed.iloc[0])} cross near {show('flow', row.flow)}",
+                    "a higher speed must give more head at the same flow; check speeds and heads",
+                )

@@ -1,0 +1,119 @@
+"""Plain-text tables of station results for the terminal."""
+
+from __future__ import annotations
+
+import math
+
+from trainopt.station.result import CAUTION, StationResult
+
+_COLUMNS = [
+    ("name", "unit", "{}"),
+    ("status", "status", "{}"),
+    ("net_mass_flow_kg_s", "net kg/s", "{:.2f}"),
+    ("recycle_kg_s", "recycle kg/s", "{:.2f}"),
+    ("speed_rpm", "speed rpm", "{:.0f}"),
+    ("inlet_volume_flow_m3_h", "inlet m3/h", "{:.0f}"),
+    ("polytropic_head_kJ_kg", "Hp kJ/kg", "{:.1f}"),
+    ("polytropic_efficiency", "eta_p", "{:.3f}"),
+    ("shaft_power_kW", "shaft kW", "{:.0f}"),
+    ("driver_input_kW", "input kW", "{:.0f}"),
+    ("discharge_temperature_C", "T2 degC", "{:.1f}"),
+    ("surge_margin_pct", "surge %", "{:.1f}"),
+    ("control_line_margin_pct", "SCL %", "{:.1f}"),
+    ("stonewall_margin_pct", "stonewall %", "{:.1f}"),
+    ("speed_max_margin_pct", "to max speed %", "{:.1f}"),
+    ("driver_power_margin_pct", "power %", "{:.1f}"),
+]
+
+
+_SERIES_PRESSURES = [
+    ("suction_pressure_kPa", "p in kPa", "{:.0f}"),
+    ("discharge_pressure_kPa", "p out kPa", "{:.0f}"),
+]
+_SERIES_TAIL = [("cooler_duty_kW", "cooler kW", "{:.0f}")]
+
+
+def _columns(units: list[dict]) -> list[tuple[str, str, str]]:
+    """The table's columns: series trains add section, pressures and cooler duty."""
+    columns = list(_COLUMNS)
+    if any("stage" in u for u in units):
+        columns.insert(1, ("stage", "stage", "{}"))
+    if any(u.get("section") for u in units):
+        columns.insert(2 if columns[1][0] == "stage" else 1, ("section", "section", "{}"))
+        at = [key for key, _, _ in columns].index("speed_rpm") + 1
+        columns[at:at] = _SERIES_PRESSURES
+        columns += _SERIES_TAIL
+    return columns
+
+
+def _train_lines(units: list[dict]) -> list[str]:
+    """One line per running series train: its totals and the limit nearest to binding."""
+    lines, seen = [], set()
+    for u in units:
+        if not (u.get("running") and u.get("section")) or u["name"] in seen:
+            continue
+        seen.add(u["name"])
+        lines.append(f"Train {u['name']}: shaft {u['train_shaft_power_kW']:.0f} kW, nearest limit "
+                     f"{u['limiting_constraint']} of {u['limiting_section']} "
+                     f"({u['limiting_margin_pct']:.1f} %); its flow range runs from the "
+                     f"{u['least_flow_limit']} to the {u['largest_flow_limit']}")
+    return lines
+
+
+def _cell(value, fmt: str) -> str:
+    if value is None or (isinstance(value, float) and math.isnan(value)):
+        return "-"
+    return fmt.format(value)
+
+
+def format_result(result: StationResult) -> str:
+    """The result as a text report: header, per-unit table, totals, baselines, caution.
+
+    Parameters
+    ----------
+    result : StationResult
+
+    Returns
+    -------
+    str
+    """
+    d = result.to_dict()
+    lines = [f"Case: {d['case']}",
+             f"Suction {d['suction_pressure_kPa']:.0f} kPa, {d['suction_temperature_C']:.1f} degC;"
+             f" discharge {d['discharge_pressure_kPa']:.0f} kPa; demand {d['demand_kg_s']:.2f} "
+             f"kg/s; objective {d['objective']}"]
+    if d["status"] == "infeasible":
+        lines += ["", f"INFEASIBLE: {d['reason']}", "", CAUTION]
+        return "\n".join(lines)
+    columns = _columns(d["units"])
+    header = [title for _, title, _ in columns]
+    body = [[_cell(u.get(key), fmt) if u.get("running") or key in ("name", "status", "stage")
+             else ("stopped" if key == "net_mass_flow_kg_s" else "")
+             for key, _, fmt in columns] for u in d["units"]]
+    widths = [max(len(h), *(len(r[i]) for r in body)) for i, h in enumerate(header)]
+    lines.append("")
+    lines.append("  ".join(h.rjust(w) for h, w in zip(header, widths, strict=True)))
+    for row in body:
+        lines.append("  ".join(c.rjust(w) for c, w in zip(row, widths, strict=True)))
+    lines += ["", *_train_lines(d["units"])] if _train_lines(d["units"]) else []
+    if d.get("interstage_header"):
+        h = d["interstage_header"]
+        lines += ["", f"Interstage header {h['pressure_kPa']:.0f} kPa (downstream suction "
+                  f"{h['downstream_suction_pressure_kPa']:.0f} kPa, "
+                  f"{h['downstream_suction_temperature_C']:.1f} degC)"]
+    lines += ["", f"Station shaft power {d['total_shaft_power_kW']:.0f} kW, driver input "
+              f"{d['total_driver_input_kW']:.0f} kW, recycle {d['total_recycle_kg_s']:.2f} kg/s, "
+              f"CO2 {d['total_co2_t_h']:.2f} t/h, cost {d['total_cost_per_h']:.0f} "
+              f"{d['currency']}/h"]
+    solver = d.get("solver")
+    if solver and "piecewise_objective" in solver:
+        lines.append(f"Piecewise objective {solver['piecewise_objective']:.6g}; formulation "
+                     f"{solver['formulation']}; solve {solver['solve_seconds'] * 1e3:.0f} ms")
+    for rule, b in d.get("baselines", {}).items():
+        if b["status"] == "feasible":
+            lines.append(f"Against {rule.replace('_', ' ')}: {b['total_shaft_power_kW']:.0f} kW, "
+                         f"saving {b['saving_kW']:.0f} kW ({b['saving_pct']:.2f} %)")
+        else:
+            lines.append(f"Against {rule.replace('_', ' ')}: infeasible ({b['reason']})")
+    lines += ["", CAUTION]
+    return "\n".join(lines)

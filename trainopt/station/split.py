@@ -1,0 +1,147 @@
+"""The station's main job: least-power load split, and the evaluation of a given split.
+
+``optimize`` reduces every unit to a least-power curve at today's conditions
+(:class:`~trainopt.station.reduced.Station`), hands the curves to the dispatch model
+(:mod:`trainopt.dispatch.model`, solved by HiGHS in :mod:`trainopt.dispatch.solve`),
+evaluates the chosen split on the true model, refines it there, and compares it with the
+usual load-sharing baselines. ``evaluate`` takes a split the user gives and reports it the
+same way.
+"""
+
+from __future__ import annotations
+
+from collections.abc import Iterable, Mapping
+
+from trainopt.case.loading import Case
+from trainopt.dispatch.solve import solve_dispatch
+from trainopt.errors import InputError
+from trainopt.machines.train import UnitStatus
+from trainopt.physics.units import Kind, parse_flow, parse_quantity
+from trainopt.station.baselines import compare_baselines
+from trainopt.station.header import evaluate_header_split, optimize_header
+from trainopt.station.reduced import Station, evaluate_split, requested_demand, station_result
+from trainopt.station.result import StationResult
+
+
+def _infeasible_units_text(station: Station) -> str:
+    bad = [f"{n}: {c.reason}" for n, c in station.curves.items() if not c.feasible]
+    return ("; units that cannot meet today's duty: " + "; ".join(bad)) if bad else ""
+
+
+def optimize(case: Case, demand=None, offline: Iterable[str] = (), objective: str | None = None,
+             baselines: bool = True) -> StationResult:
+    """Least-objective split of the demand across the station's units.
+
+    Parameters
+    ----------
+    case : Case
+        From :func:`trainopt.load_case`.
+    demand : str or float, optional
+        Throughput with a unit (``"280 MMSCFD"``, ``"70 kg/s"``) or a mass flow [kg/s];
+        the case's demand by default.
+    offline : iterable of str, optional
+        Units to take offline.
+    objective : str, optional
+        ``shaft_power`` (default of cases), ``energy_input`` or ``cost``.
+    baselines : bool, optional
+        Also evaluate equal-flow, equal-speed and equal-margin sharing.
+
+    Returns
+    -------
+    StationResult
+        Status ``"optimal"`` with the per-unit table, or ``"infeasible"`` with the reason.
+    """
+    if case.interstage_header is not None:
+        return optimize_header(case, demand, offline, objective, baselines)
+    station = Station(case, offline, objective)
+    m_demand = requested_demand(case, demand)
+    curves = station.unit_curves()
+    if not curves:
+        reason = "no unit is available" + _infeasible_units_text(station)
+        return StationResult.infeasible(case, m_demand, reason, station.objective)
+    dispatch = solve_dispatch(curves, m_demand)
+    if dispatch.status == "infeasible":
+        return StationResult.infeasible(case, m_demand, dispatch.reason
+                                        + _infeasible_units_text(station), station.objective)
+    through = {n: dispatch.through_flow.get(n, 0.0) for n in station.curves}
+    recycle = {n: dispatch.recycle.get(n, 0.0) for n in station.curves}
+    piecewise = dispatch.objective
+    refined = station.refine({n: through[n] for n in through if recycle[n] <= 0.0})
+    through.update(refined)
+    result = station_result(station, through, recycle, m_demand)
+    result.solver = {"piecewise_objective": piecewise, "formulation": dispatch.formulation,
+                     "build_seconds": dispatch.build_seconds,
+                     "solve_seconds": dispatch.solve_seconds,
+                     "mip_gap": dispatch.mip_gap_achieved,
+                     "breakpoint_error_W": {n: c.error_bound for n, c in station.curves.items()},
+                     "convex": {n: c.convex for n, c in station.curves.items()}}
+    if baselines:
+        result.baselines = compare_baselines(station, result, m_demand)
+    return result
+
+
+SPLIT_TOLERANCE = 1e-3
+"""Relative difference allowed between a split's total and the demand it should meet [-]."""
+
+
+def evaluate(case: Case, split: Mapping[str, object], demand=None) -> StationResult:
+    """Evaluate a given split on the true model.
+
+    Parameters
+    ----------
+    case : Case
+    demand : str or float, optional
+        The station throughput the split must add up to (a flow with its unit, or a mass
+        flow [kg/s]); when given, a split whose net flows differ from it by more than
+        :data:`SPLIT_TOLERANCE` is refused. The command line passes the case's demand.
+    split : mapping of str to str or float
+        Unit (or train) name to net mass flow [kg/s] (or a flow string with its unit).
+        Units absent are stopped. Each running unit gets the least recycle it needs. For
+        a station with a shared interstage header, the key ``interstage_header`` gives
+        its pressure (``"48 bar"`` or [Pa]).
+
+    Returns
+    -------
+    StationResult
+        ``"infeasible"`` with the reason if a unit cannot carry its share.
+    """
+    names = {t.name for t in case.trains}
+    flows = {}
+    split = dict(split)
+    header_pressure = split.pop("interstage_header", None)
+    if case.interstage_header is None and header_pressure is not None:
+        raise InputError("split.interstage_header", "the case has no shared interstage header",
+                         "leave it out of the split")
+    if case.interstage_header is not None and header_pressure is None:
+        raise InputError("split.interstage_header", "is missing: a shared-header station needs "
+                         "the header pressure", "add interstage_header='48 bar' to the split")
+    for name, value in split.items():
+        if name not in names:
+            raise InputError(f"split.{name}", f"no unit named '{name}'",
+                             f"use one of {', '.join(sorted(names))}")
+        if isinstance(value, str):
+            value = case.demand_mass_flow(parse_flow(value, f"split.{name}"))
+        if not float(value) >= 0:
+            raise InputError(f"split.{name}", f"{value} is negative", "give a net flow >= 0")
+        flows[name] = float(value)
+    if demand is not None:
+        target = requested_demand(case, demand)
+        total = sum(flows.values())
+        if abs(total - target) > SPLIT_TOLERANCE * max(target, 1e-9):
+            raise InputError("split", f"the shares add up to {total:.3f} kg/s but the demand is "
+                             f"{target:.3f} kg/s", "make the shares add up to the demand, or "
+                             "state the demand they meet (--demand)")
+    offline = [t.name for t in case.trains if t.name not in flows]
+    for name in flows:
+        if case.train(name).status is UnitStatus.OFFLINE:
+            raise InputError(f"split.{name}", "the case marks this unit offline",
+                             "leave it out of the split or change its status")
+    if header_pressure is not None:
+        pressure = (float(header_pressure) if isinstance(header_pressure, int | float) else
+                    parse_quantity(header_pressure, Kind.PRESSURE, "split.interstage_header",
+                                   atmospheric=case.atmospheric_pressure))
+        return evaluate_header_split(case, flows, pressure)
+    station = Station(case, offline)
+    return evaluate_split(station, flows)
+
+
