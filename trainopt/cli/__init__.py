@@ -1,7 +1,8 @@
 """The ``trainopt`` command: a thin layer over the Python API, one call per command.
 
-- :mod:`~trainopt.cli.app`: the typer application; ``optimize``, ``evaluate``, ``gas`` and
-  ``fit-map``;
+- :mod:`~trainopt.cli.app`: the typer application, which registers each command group;
+- :mod:`~trainopt.cli.station`: ``optimize`` and ``evaluate``;
+- :mod:`~trainopt.cli.maps`: ``fit-map``; :mod:`~trainopt.cli.gas`: ``gas``;
 - :mod:`~trainopt.cli.studies`: ``envelope`` and ``audit``;
 - :mod:`~trainopt.cli.failure`: our errors as one line on stderr, exit status 2.
 
