@@ -15,7 +15,6 @@ import typer
 
 from trainopt.cli.failure import friendly
 from trainopt.errors import InputError
-from trainopt.station.result import CAUTION
 
 
 def _written(paths: dict) -> None:
@@ -47,6 +46,7 @@ def envelope_command(
 ) -> None:
     """Turndown, unit-offline envelopes and least power against throughput."""
     from trainopt.report.study_reports import envelope_report
+    from trainopt.station.result import CAUTION
 
     named = []
     for text in service or []:

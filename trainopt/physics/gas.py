@@ -17,13 +17,13 @@ from __future__ import annotations
 import math
 import warnings
 from dataclasses import dataclass, field
-from enum import Enum
 from functools import lru_cache
 
 import CoolProp.CoolProp as CP
 import numpy as np
 
 from trainopt.errors import InputError, PhysicsError, TwoPhaseError
+from trainopt.physics.choices import EquationOfState
 from trainopt.physics.units import REFERENCE_CONDITIONS, Flow, FlowBasis, ReferenceConditions
 
 GAS_CONSTANT = 8.314462618
@@ -65,13 +65,6 @@ for _name, (_cp, _aliases) in _COMPONENTS.items():
         _ALIAS[_alias.lower()] = _name
 
 _SUPERCRITICAL_TRACES = ("hydrogen", "helium", "argon", "oxygen", "carbon monoxide", "water")
-
-
-class EquationOfState(Enum):
-    """Equation of state used for gas states."""
-
-    GERG2008 = "HEOS"
-    PENG_ROBINSON = "PR"
 
 
 @dataclass(frozen=True)
