@@ -58,9 +58,18 @@ class Station:
         Units to take offline on top of the case's own status.
     objective : str, optional
         ``shaft_power``, ``energy_input`` or ``cost``; the case's by default.
+    reuse : mapping of str to LeastPowerCurve, optional
+        Curves already reduced at these conditions (for this objective, where it matters),
+        taken as they are instead of reduced again; see
+        :class:`~trainopt.station.reduced_station.ReducedStation`.
+    duties : dict, optional
+        Compression duties already tabulated at these conditions, by head basis; shared
+        and filled in place.
     """
 
-    def __init__(self, case: Case, offline: Iterable[str] = (), objective: str | None = None):
+    def __init__(self, case: Case, offline: Iterable[str] = (), objective: str | None = None,
+                 *, reuse: Mapping[str, LeastPowerCurve] | None = None,
+                 duties: dict[HeadBasis, Duty] | None = None):
         if case.interstage_header is not None:
             raise InputError("interstage_header", "a station with a shared interstage header "
                              "has two groups of units, not one", "use trainopt.optimize (it "
@@ -72,11 +81,18 @@ class Station:
             case.train(name)
         self.status = {t.name: (UnitStatus.OFFLINE if t.name in offline else t.status)
                        for t in case.trains}
-        self._duties: dict[HeadBasis, Duty] = {}
+        self._duties: dict[HeadBasis, Duty] = {} if duties is None else duties
         self.curves: dict[str, LeastPowerCurve] = {}
         reduced: dict[tuple, LeastPowerCurve] = {}
+        reuse = reuse or {}
         for train in case.trains:
             if self.status[train.name] is UnitStatus.OFFLINE:
+                continue
+            if train.name in reuse:
+                self.curves[train.name] = reuse[train.name]
+                key = _twin_key(train) if train.is_single_section else None
+                if key is not None:
+                    reduced.setdefault(key, reuse[train.name])
                 continue
             if train.is_single_section:
                 key = _twin_key(train)

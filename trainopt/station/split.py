@@ -13,19 +13,13 @@ from __future__ import annotations
 from collections.abc import Iterable, Mapping
 
 from trainopt.case.loading import Case
-from trainopt.dispatch.solve import solve_dispatch
 from trainopt.errors import InputError
 from trainopt.machines.train import UnitStatus
 from trainopt.physics.units import Kind, parse_flow, parse_quantity
-from trainopt.station.baselines import compare_baselines
 from trainopt.station.header import evaluate_header_split, optimize_header
-from trainopt.station.reduced import Station, evaluate_split, requested_demand, station_result
+from trainopt.station.reduced import Station, evaluate_split, requested_demand
+from trainopt.station.reduced_station import answer
 from trainopt.station.result import StationResult
-
-
-def _infeasible_units_text(station: Station) -> str:
-    bad = [f"{n}: {c.reason}" for n, c in station.curves.items() if not c.feasible]
-    return ("; units that cannot meet today's duty: " + "; ".join(bad)) if bad else ""
 
 
 def optimize(case: Case, demand=None, offline: Iterable[str] = (), objective: str | None = None,
@@ -54,30 +48,7 @@ def optimize(case: Case, demand=None, offline: Iterable[str] = (), objective: st
     if case.interstage_header is not None:
         return optimize_header(case, demand, offline, objective, baselines)
     station = Station(case, offline, objective)
-    m_demand = requested_demand(case, demand)
-    curves = station.unit_curves()
-    if not curves:
-        reason = "no unit is available" + _infeasible_units_text(station)
-        return StationResult.infeasible(case, m_demand, reason, station.objective)
-    dispatch = solve_dispatch(curves, m_demand)
-    if dispatch.status == "infeasible":
-        return StationResult.infeasible(case, m_demand, dispatch.reason
-                                        + _infeasible_units_text(station), station.objective)
-    through = {n: dispatch.through_flow.get(n, 0.0) for n in station.curves}
-    recycle = {n: dispatch.recycle.get(n, 0.0) for n in station.curves}
-    piecewise = dispatch.objective
-    refined = station.refine({n: through[n] for n in through if recycle[n] <= 0.0})
-    through.update(refined)
-    result = station_result(station, through, recycle, m_demand)
-    result.solver = {"piecewise_objective": piecewise, "formulation": dispatch.formulation,
-                     "build_seconds": dispatch.build_seconds,
-                     "solve_seconds": dispatch.solve_seconds,
-                     "mip_gap": dispatch.mip_gap_achieved,
-                     "breakpoint_error_W": {n: c.error_bound for n, c in station.curves.items()},
-                     "convex": {n: c.convex for n, c in station.curves.items()}}
-    if baselines:
-        result.baselines = compare_baselines(station, result, m_demand)
-    return result
+    return answer(station, requested_demand(case, demand), baselines=baselines)
 
 
 SPLIT_TOLERANCE = 1e-3
