@@ -193,7 +193,8 @@ class Station:
         """Refine running units' interior flows on the sampled true model, keeping their sum.
 
         A local SLSQP solve (SciPy) from the dispatch's split, within each unit's curve
-        range; kept only if it lowers the objective.
+        range, with the splines' exact derivatives as gradient; kept only if it lowers
+        the objective.
         """
         names = [n for n, m in through.items() if m > 0]
         if len(names) < 2:
@@ -205,11 +206,17 @@ class Station:
         splines = [self.sampled_cost(n) for n in names]
         scale = max(float(sum(s(m) for s, m in zip(splines, x0, strict=True))), 1e-9)
 
+        slopes = [s.derivative() for s in splines]
+
         def f(x):
             return float(sum(s(m) for s, m in zip(splines, x, strict=True))) / scale
 
-        res = minimize(f, x0, method="SLSQP", bounds=list(zip(lo, hi, strict=True)),
-                       constraints=[{"type": "eq", "fun": lambda x: x.sum() - total}],
+        def gradient(x):
+            return np.array([float(d(m)) for d, m in zip(slopes, x, strict=True)]) / scale
+
+        res = minimize(f, x0, jac=gradient, method="SLSQP", bounds=list(zip(lo, hi, strict=True)),
+                       constraints=[{"type": "eq", "fun": lambda x: x.sum() - total,
+                                     "jac": lambda x: np.ones_like(x)}],
                        options={"ftol": 1e-13, "maxiter": 200})
         if res.success and f(res.x) < f(x0) and abs(res.x.sum() - total) < 1e-9 * total:
             out = dict(through)
