@@ -38,10 +38,10 @@ _SERIES_PRESSURES = [
 ]
 
 LEGEND = ("Hp polytropic head; eta_p polytropic efficiency; T2 discharge temperature; "
-          "SCL surge control line; kPa(a) absolute pressure. Margins are room left, in % of "
-          "the flow (surge, SCL, stonewall), speed or driver power; --explain defines each "
-          "column.")
-"""The legend printed under every unit table."""
+          "SCL surge control line; kPa(a) absolute pressure.",
+          "Margins are room left, in % of the flow (surge, SCL, stonewall), speed or driver "
+          "power; --explain defines each column.")
+"""The legend printed under every unit table, line by line."""
 
 EXPLAIN = {
     "net kg/s": "net flow the unit delivers to the discharge header [kg/s]",
@@ -171,7 +171,7 @@ def format_result(result: StationResult, *, demand_text: str | None = None,
     lines.append("  ".join(h.rjust(w) for h, w in zip(header, widths, strict=True)))
     for row in body:
         lines.append("  ".join(c.rjust(w) for c, w in zip(row, widths, strict=True)))
-    lines.append(LEGEND)
+    lines += LEGEND
     if explain:
         lines += [f"  {title}: {EXPLAIN[title]}" for title in header if title in EXPLAIN]
     lines += ["", *_train_lines(d["units"])] if _train_lines(d["units"]) else []
