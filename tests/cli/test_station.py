@@ -291,15 +291,15 @@ def test_existing_files_are_kept_unless_forced(tmp_path):
 
 def test_unit_names_become_safe_file_names(tmp_path):
     def change(data):
-        data["units"][0]["name"] = "P1/north"
-        data["units"][1]["name"] = "P2 south"
+        data["units"][0]["name"] = "P/1"
+        data["units"][1]["name"] = "P_1"  # the same safe name as "P/1": must not replace it
     case = pair_variant(tmp_path, change)
     out = tmp_path / "out"
-    result = run("optimize", case, "--demand", "150 kg/s", "--json", "--out", out)
+    result = run("optimize", case, "--demand", "200 kg/s", "--json", "--out", out)
     assert result.exit_code == 0, result.output
     running = [u["name"] for u in strict_json(result.stdout)["units"] if u["running"]]
-    safe = {"P1/north": "map_P1_north.png", "P2 south": "map_P2_south.png"}
-    assert sorted(p.name for p in out.glob("*.png")) == sorted(safe[n] for n in running)
+    assert running == ["P/1", "P_1"]  # 200 kg/s needs both units of the pair
+    assert sorted(p.name for p in out.glob("*.png")) == ["map_P_1-2.png", "map_P_1.png"]
     assert [p for p in out.rglob("*") if p.is_dir()] == []
 
 

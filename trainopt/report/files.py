@@ -13,11 +13,40 @@ from pathlib import Path
 
 from trainopt.report.output_folder import OutputFolder, safe_name, write_csv
 
-__all__ = ["check_result_folder", "result_file_names", "write_result_files"]
+__all__ = ["check_result_folder", "picture_names", "result_file_names", "write_result_files"]
 
 
-def _tag(unit: str, section: str | None) -> str:
-    return safe_name(f"{unit}_{section}" if section else unit)
+def picture_names(case) -> dict[tuple[str, str | None], str]:
+    """The map picture's file name of each unit (and section of a series train).
+
+    Names are made file-safe (:func:`~trainopt.report.output_folder.safe_name`); two units
+    whose safe names coincide (``A/B`` and ``A_B``) get ``-2``, ``-3`` ... so that neither
+    picture replaces the other.
+
+    Parameters
+    ----------
+    case : Case
+
+    Returns
+    -------
+    dict of (unit, section or None) to str
+    """
+    keys = []
+    for train in case.trains:
+        if train.is_single_section:
+            keys.append((train.name, None))
+        else:
+            keys += [(train.name, s.name) for s in train.sections]
+    names, taken = {}, set()
+    for unit, section in keys:
+        stem = f"map_{safe_name(f'{unit}_{section}' if section else unit)}"
+        name, n = f"{stem}.png", 1
+        while name.lower() in taken:  # case-insensitive file systems too
+            n += 1
+            name = f"{stem}-{n}.png"
+        taken.add(name.lower())
+        names[(unit, section)] = name
+    return names
 
 
 def result_file_names(case) -> list[str]:
@@ -31,13 +60,7 @@ def result_file_names(case) -> list[str]:
     -------
     list of str
     """
-    names = ["result.json", "units.csv"]
-    for train in case.trains:
-        if train.is_single_section:
-            names.append(f"map_{_tag(train.name, None)}.png")
-        else:
-            names += [f"map_{_tag(train.name, s.name)}.png" for s in train.sections]
-    return names
+    return ["result.json", "units.csv", *picture_names(case).values()]
 
 
 def check_result_folder(case, out_dir: str | Path, *, overwrite: bool = False) -> OutputFolder:
@@ -92,7 +115,7 @@ def _pictures(result, folder: OutputFolder) -> dict[str, str]:
     """A map picture per running unit (per section of a series train): kind -> file name."""
     from trainopt.report.map_picture import plot_map
 
-    kinds = {}
+    kinds, files = {}, picture_names(result.case)
     for row in result.units.to_dict("records"):
         if not row.get("running"):
             continue
@@ -114,7 +137,7 @@ def _pictures(result, folder: OutputFolder) -> dict[str, str]:
                     (row["inlet_volume_flow_m3_h"] / 3600.0, head), xytext=(14, 14),
                     textcoords="offset points", fontsize=9,
                     bbox={"boxstyle": "round", "fc": "white", "alpha": 0.85})
-        file = f"map_{_tag(row['name'], name)}.png"
+        file = files[(row["name"], name if not train.is_single_section else None)]
         fig.savefig(folder.path(file), dpi=110)
         kinds[f"map_{label}"] = file
     return kinds
