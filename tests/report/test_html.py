@@ -224,3 +224,15 @@ def test_service_sets_refuse_a_unit_taken_offline(demo_case):
 
     with pytest.raises(InputError, match="service set: A is also taken offline"):
         service_sets(demo_case, offline=["A"], named=[["A", "C"]])
+
+
+def test_studies_refuse_an_out_that_is_a_file_before_any_work(app, files, tmp_path):
+    taken = tmp_path / "taken"
+    taken.write_text("keep me")
+    for args in (["envelope", str(DEMO)],
+                 ["audit", str(DEMO), str(files[0]), "--columns", str(files[1])]):
+        result = CliRunner().invoke(app, [*args, "--out", str(taken / "sub"), "--quiet"])
+        assert result.exit_code == 2
+        assert result.stderr.splitlines() == [
+            f"error: --out: {taken} is a file, not a folder; give a folder path"]
+    assert taken.read_text() == "keep me"

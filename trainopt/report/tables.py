@@ -123,8 +123,8 @@ def check_free(paths, overwrite: bool) -> None:
         return
     for path in paths:
         if Path(path).exists():
-            raise InputError(str(path), "exists already", "pass overwrite=True (--force) or "
-                             "choose another output folder (--out)")
+            raise InputError(str(path), "exists already", "pass --force (overwrite=True) to "
+                             "replace it or choose another folder")
 
 
 def _for_file(frame: pd.DataFrame) -> pd.DataFrame:
