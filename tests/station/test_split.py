@@ -541,12 +541,27 @@ def test_evaluate_rejects_bad_splits(pair_case):
 
 def test_evaluate_split_that_does_not_add_up_to_the_demand(pair_case):
     # the case asks for 150 kg/s; a split of 100 kg/s does not add up when a demand is
-    # stated (the command line always states one: the case's, or --demand)
+    # stated (--demand on the command line); without one, the split's sum is the demand
     with pytest.raises(InputError, match=r"split: the shares add up to 100.000 kg/s but the "
                                          r"demand is 150.000 kg/s"):
         trainopt.evaluate(pair_case, {"P1": 50.0, "P2": 50.0}, demand=150.0)
     assert trainopt.evaluate(pair_case, {"P1": 75.0, "P2": 75.0}, demand=150.0).status == \
         "evaluated"
+    alone = trainopt.evaluate(pair_case, {"P1": 50.0, "P2": 50.0})
+    assert alone.status == "evaluated"
+    assert alone.demand_kg_s == 100.0  # 50 + 50 kg/s, by hand
+
+
+def test_units_left_out_of_a_split_are_stopped_not_offline(demo_case):
+    # The README's example: A 150 kg/s and C 230 kg/s; B and D are left out. They are
+    # stopped with the case's status (available), not offline (docs/results.md).
+    result = trainopt.evaluate(demo_case, {"A": "150 kg/s", "C": "230 kg/s"})
+    assert result.status == "evaluated"
+    units = result.units.set_index("name")
+    for name in "BD":
+        assert not bool(units.loc[name, "running"])
+        assert units.loc[name, "status"] == "available"
+    assert_allclose(result.demand_kg_s, 380.0, rtol=1e-15)  # 150 + 230 kg/s
 
 
 def test_cost_objective_is_the_least_cost(demo_case, demo_optima):
