@@ -129,7 +129,8 @@ class AuditResult:
             f"The optimum minimises {_OBJECTIVE_WORDS[t['objective']]}: against the recorded "
             f"operation it saves {t['avoidable_objective']:.0f} {t['objective_unit']}"
             + (f" of {_OBJECTIVE_WORDS[t['objective']]}" if t["objective"] != "cost" else "")
-            + (f"; {t['avoidable_note']}" if t["avoidable_note"] else ""),
+            + "." + (f" {t['avoidable_note'][0].upper()}{t['avoidable_note'][1:]}."
+                     if t["avoidable_note"] else ""),
             "Skipped rows:", describe_skips(self.skipped), "", CAUTION,
         ]
         return "\n".join(lines)
