@@ -124,12 +124,14 @@ def _rule_line(rule: str, b: dict, objective: str) -> list[str]:
     if b["status"] != "feasible":
         return [f"Against {name}: infeasible ({b['reason']})"]
     if "objective_saving" not in b or objective == "shaft_power":
-        return [f"Against {name}: {b['total_shaft_power_kW']:.0f} kW, saving "
-                f"{b['saving_kW']:.0f} kW ({b['saving_pct']:.2f} %)"]
-    unit = b["objective_unit"]
-    line = (f"Against {name}: {_OBJECTIVE_WORDS[objective]} {b['total_objective']:.0f} {unit}, "
-            f"saving {b['objective_saving']:.0f} {unit} ({b['objective_saving_pct']:.2f} %); "
-            f"shaft power {b['total_shaft_power_kW']:.0f} kW, saving {b['saving_kW']:.0f} kW")
+        line = (f"Against {name}: {b['total_shaft_power_kW']:.0f} kW, saving "
+                f"{b['saving_kW']:.0f} kW ({b['saving_pct']:.2f} %)")
+    else:
+        unit = b["objective_unit"]
+        line = (f"Against {name}: {_OBJECTIVE_WORDS[objective]} {b['total_objective']:.0f} "
+                f"{unit}, saving {b['objective_saving']:.0f} {unit} "
+                f"({b['objective_saving_pct']:.2f} %); shaft power "
+                f"{b['total_shaft_power_kW']:.0f} kW, saving {b['saving_kW']:.0f} kW")
     return [line] + ([f"  ({b['note']})"] if b.get("note") else [])
 
 
