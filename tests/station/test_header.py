@@ -129,6 +129,9 @@ def test_evaluate_takes_the_header_pressure_in_the_split(header_case):
     result = trainopt.evaluate(header_case, split)
     assert result.status != "infeasible", result.reason
     assert_allclose(result.header["pressure_kPa"], 4800.0, rtol=1e-12)
+    left_out = result.units[~result.units["running"].astype(bool)]
+    assert set(left_out["name"]) == {"LP3", "HP2"}  # stopped, with the case's status
+    assert set(left_out["status"]) == {"available"}
     with pytest.raises(InputError, match="interstage_header: is missing"):
         trainopt.evaluate(header_case, {"LP1": "100 kg/s", "HP1": "100 kg/s"})
     with pytest.raises(InputError, match="same total"):

@@ -404,8 +404,11 @@ def evaluate_header_split(case: Case, net: Mapping[str, float], pressure: float
     for side in SIDES:
         group = group_case(case, side, pressure)
         mine = {n: v for n, v in net.items() if any(t.name == n for t in group.trains)}
-        offline = [t.name for t in group.trains if t.name not in mine]
-        result = evaluate_split(Station(group, offline), mine)
+        left_out = [t.name for t in group.trains if t.name not in mine]
+        station = Station(group, left_out)
+        for name in left_out:  # stopped (not reduced), not offline: the case's status
+            station.status[name] = group.train(name).status
+        result = evaluate_split(station, mine)
         if result.status == "infeasible":
             return StationResult.infeasible(case, totals["upstream"], f"{side} group: "
                                             f"{result.reason}", case.objective)
