@@ -12,6 +12,7 @@ Control, ch. 3: equal incremental cost, common practice).
 
 from pathlib import Path
 
+import numpy as np
 import pytest
 from numpy.testing import assert_allclose
 from scipy.optimize import brentq
@@ -282,3 +283,20 @@ def test_signs_that_differ_are_explained():
     assert "330 MWh more driver input" in words
     assert "still costs 71686 USD less" in words
     assert contrast_in_words("shaft_power", 500.0, 500.0, 20.0, 10.0, "USD") == ""
+
+
+def test_a_rule_on_an_unknown_margin_says_so(demo_station, monkeypatch):
+    # A margin that is not known somewhere on a unit's range (NaN, e.g. off the tested map)
+    # cannot be shared equally: the rule is refused in words, never split on garbage.
+    true_profile = demo_station.profile
+
+    def gap_in_d(name, flows):
+        fraction, margin = true_profile(name, flows)
+        if name == "D":
+            margin = np.where(np.arange(len(margin)) == 3, np.nan, margin)
+        return fraction, margin
+
+    monkeypatch.setattr(demo_station, "profile", gap_in_d)
+    split = baseline_splits(demo_station, ["A", "D"], 200.0)["equal_margin"]
+    assert not split.feasible
+    assert split.reason.startswith("D: its control-line margin is not known")

@@ -82,6 +82,11 @@ def _common_value_split(station, running, demand: float, rule: str, profiles) ->
         Per unit: the rule's quantity along its through-flows and those flows [kg/s],
         from its least to its largest flow.
     """
+    quantity, value_text, scale = RULE_WORDS[rule]
+    for name, (v, _) in zip(running, profiles, strict=True):
+        if not np.all(np.isfinite(v)):
+            return RuleSplit({}, f"{name}: its {quantity} is not known along its whole flow "
+                             "range (off the tested map), so the rule cannot be applied")
     ups = [(np.maximum.accumulate(v), m) for v, m in profiles]
 
     def share(x):
@@ -93,7 +98,6 @@ def _common_value_split(station, running, demand: float, rule: str, profiles) ->
     most = share(x_top)
     if most.sum() < demand * (1 - 1e-9):
         name = running[first]
-        quantity, value_text, scale = RULE_WORDS[rule]
         return RuleSplit({}, (
             f"{name} reaches its largest flow, {station.curves[name].max_flow:.2f} kg/s set by "
             f"the {_limit_words(station, name)}, at {value_text.format(scale * x_top)}; at "
