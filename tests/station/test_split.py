@@ -191,11 +191,11 @@ def test_optimum_matches_exhaustive_search_within_stated_bound(request, station_
 
 
 def test_identical_units_share_equally(pair_optima, demo_optima):
-    # Two identical GasLib-135 units (one group) with both running: the same net flow. The
-    # curve is convex where they run, so equal sharing is the optimum. Tolerance 1e-3 kg/s:
-    # the true-model refinement stops at a relative objective change of 1e-13, and with
-    # P'' ~ 100 W/(kg/s)^2 a flow difference d costs only P'' d^2 / 2, so the flows can stay
-    # ~1e-4 kg/s apart (measured 8e-5 kg/s at 60 kg/s); a real asymmetry would be whole kg/s.
+    # Two identical GasLib-135 units (one group) with both running: the same net flow. The curve is
+    # convex where they run, so equal sharing is the optimum. Tolerance 1e-3 kg/s: the true-model
+    # refinement stops at a relative objective change of 1e-13, and with P'' ~ 100 W/(kg/s)^2 a flow
+    # difference d costs only P'' d^2 / 2, so the flows can stay ~1e-4 kg/s apart (regression value
+    # (own output) 8e-5 kg/s at 60 kg/s); a real asymmetry would be whole kg/s.
     for demand in (60.0, 150.0, 200.0):
         flows = running(pair_optima[demand])
         assert set(flows) == {"P1", "P2"}
@@ -231,8 +231,8 @@ def test_equal_incremental_power_at_an_interior_optimum(trio_station, trio_optim
         for a, b in combinations(flows, 2):
             allowed = np.sqrt(2 * bound * (curvatures[a] + curvatures[b]))
             assert abs(slopes[a] - slopes[b]) <= allowed, (demand, a, b, slopes)
-        # and in plain numbers: about 50 kW per kg/s, equal to well under 1 % (measured:
-        # 2e-6 after the true-model refinement; the breakpoint answer alone differs by the
+        # and in plain numbers: about 50 kW per kg/s, equal to well under 1 % (regression value (own
+        # output): 2e-6 after the true-model refinement; the breakpoint answer alone differs by the
         # slope jumps between segments, several per cent)
         values = np.array(list(slopes.values()))
         assert_allclose(values, values.mean(), rtol=5e-3)

@@ -264,6 +264,25 @@ def test_totals_add_up(audit):
     assert trainopt.station.result.CAUTION in audit.summary()
 
 
+def test_station_flow_meter_feeds_the_flow_balance_check(history_files, demo_case, tmp_path):
+    """A station meter 10 % above the units' net flows is flagged; one that agrees is not.
+
+    Check values: the sum of the rows' own net flows (A 130 + C 200 = 330 kg/s, conservation
+    at the discharge header) and the documented 2 % tolerance (docs/studies.md).
+    """
+    table = pd.read_csv(history_files[0], keep_default_na=False).iloc[[0, 6]].copy()
+    table["st"] = [330.0 * 3.6, 1.10 * 330.0 * 3.6]  # t/h: agrees, then 10 % high
+    table.to_csv(tmp_path / "history.csv", index=False)
+    mapping = yaml.safe_load(history_files[1].read_text(encoding="utf-8"))
+    mapping["station"]["station_flow"] = {"column": "st", "unit": "t/h"}
+    (tmp_path / "columns.yaml").write_text(yaml.safe_dump(mapping), encoding="utf-8")
+    history = read_history(tmp_path / "history.csv", tmp_path / "columns.yaml", demo_case)
+    audit = audit_history(demo_case, history, binning=Binning(min_rows=1), workers=1,
+                          progress=False)
+    assert_allclose(audit.hours["station_meter_kg_s"], [330.0, 363.0], rtol=1e-12)
+    assert audit.hours["flow_balance_off"].tolist() == [False, True]
+
+
 def test_summary_compares_in_the_objectives_unit_and_explains_signs(audit, history, demo_case):
     # The demo's objective is shaft power: the avoidable figure in that objective is the
     # shaft energy difference (summed by hand from the hourly table: kW x 1 h rows).

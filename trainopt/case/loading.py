@@ -273,7 +273,7 @@ def _build(s: CaseSchema, path: Path, load_map) -> Case:
     header = (None if s.interstage_header is None
               else _interstage_header(s.interstage_header, names, p, p1, p2, atm))
     return Case(s.name, path, gas, atm, ambient, p1, t1, p2, demand, s.objective, econ, trains,
-                interstage_header=header)
+                extra={"demand": str(s.demand)}, interstage_header=header)
 
 
 def _interstage_header(h: InterstageHeaderSchema, names: list[str], p: str, p1: float,

@@ -12,6 +12,7 @@ from dataclasses import dataclass, field
 import numpy as np
 import pandas as pd
 
+from trainopt.caution import CAUTION  # the shared wording, kept where it always was
 from trainopt.machines.maps import stonewall_margin
 from trainopt.physics.compression import compress
 
@@ -20,8 +21,7 @@ PER_TRAIN_COLUMNS = ("net_mass_flow_kg_s", "through_mass_flow_kg_s", "recycle_kg
                      "train_driver_input_kW")
 """Columns that repeat a train's value on each of its section rows (counted once in sums)."""
 
-CAUTION = ("Advisory only: trainopt does not replace the anti-surge controller, the "
-           "vendor's data or an engineer's judgement; follow local codes and licensed practice.")
+__all__ = ["CAUTION", "PER_TRAIN_COLUMNS", "StationResult", "unit_rows"]
 
 
 def _pct(x: float) -> float:

@@ -154,7 +154,8 @@ def audit_history(case, history: History, *, binning: Binning | None = None,
                          "check the column mapping and the file against the skip reasons")
     groups = condition_bins(frame, binning)
     transport = dataclasses.replace(case, gas=None)
-    data_columns = [c for c in frame.columns if "." in c]
+    # per-unit columns ("A.flow") and the station's flow meter, for the flow-balance check
+    data_columns = [c for c in frame.columns if "." in c or c == "station_flow"]
     tasks, bins = [], []
     for number, (key, pos) in enumerate(groups):
         sub = frame.iloc[pos]
