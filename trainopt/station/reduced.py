@@ -58,15 +58,20 @@ class Station:
         Units to take offline on top of the case's own status.
     objective : str, optional
         ``shaft_power``, ``energy_input`` or ``cost``; the case's by default.
+    throttle : bool, optional
+        Let single-section units run at minimum speed with a discharge throttle where
+        their head lies below the minimum-speed line; the case's ``throttle`` by default.
     """
 
-    def __init__(self, case: Case, offline: Iterable[str] = (), objective: str | None = None):
+    def __init__(self, case: Case, offline: Iterable[str] = (), objective: str | None = None,
+                 throttle: bool | None = None):
         if case.interstage_header is not None:
             raise InputError("interstage_header", "a station with a shared interstage header "
                              "has two groups of units, not one", "use trainopt.optimize (it "
                              "searches the header pressure) or trainopt.station.header")
         self.case = case
         self.objective = chosen_objective(case, objective)
+        self.throttle = bool(case.throttle if throttle is None else throttle)
         offline = list(offline)
         for name in offline:
             case.train(name)
@@ -84,7 +89,8 @@ class Station:
                     self.curves[train.name] = replace(reduced[key], name=train.name)
                     continue
                 self.curves[train.name] = reduce_unit(train, self.duty(train),
-                                                      case.ambient_temperature)
+                                                      case.ambient_temperature,
+                                                      throttle=self.throttle)
                 if key is not None:
                     reduced[key] = self.curves[train.name]
             else:
@@ -136,7 +142,8 @@ class Station:
         train = self.case.train(name)
         m = np.asarray(through_flow, float)
         if train.is_single_section:
-            op = operate(train, self.duty(train), m, self.case.ambient_temperature)
+            op = operate(train, self.duty(train), m, self.case.ambient_temperature,
+                         self.throttle)
             return (op.speed / train.speed_max,
                     (op.volume_flow - op.control_line_flow) / op.control_line_flow)
         from trainopt.dispatch.series_reduction import train_profile
