@@ -100,7 +100,8 @@ class LeastPowerCurve:
         return float(self.mass_flow[-1])
 
 
-def _binding(op: Operation, train: Train, viol: dict[str, np.ndarray], index: int) -> str:
+def _binding(op: Operation, train: Train, viol: dict[str, np.ndarray], index: int,
+             margins: dict[str, np.ndarray] | None = None) -> str:
     """The limit that binds at a point: of those broken there, the one broken furthest.
 
     Off the map that is the limit :attr:`Operation.off_map_limit` names; on it, the most
@@ -110,7 +111,7 @@ def _binding(op: Operation, train: Train, viol: dict[str, np.ndarray], index: in
     broken = [k for k, v in viol.items() if k != "map" and v[index]]
     if not broken:
         return "map"
-    margins = op.margins(train)
+    margins = op.margins(train) if margins is None else margins
     return min(broken, key=lambda k: float(margins[k][index]))
 
 
@@ -135,26 +136,38 @@ def _refine_ends(train, duty, ambient, brackets, throttle: bool) -> list[tuple[f
         op = operate(train, duty, m, ambient, throttle)
         viol = op.violations(train)
         bad = _bad(viol)
+        margins = op.margins(train)
         for j in range(len(brackets)):
             part = slice(33 * j, 33 * (j + 1))
             b = bad[part]
             first_bad = int(np.argmax(b[1:])) + 1 if b[1:].any() else 32
-            reasons[j] = _binding(op, train, viol, 33 * j + first_bad)
+            reasons[j] = _binding(op, train, viol, 33 * j + first_bad, margins)
             brackets[j] = [m[part][first_bad - 1], m[part][first_bad]]
     return [(float(a), r) for (a, _), r in zip(brackets, reasons, strict=True)]
 
 
 def _choose_breakpoints(x: np.ndarray, y: np.ndarray, tolerance: float) -> np.ndarray:
-    """Greedy breakpoints on a sampled curve: indices so that chords stay within tolerance."""
-    chosen, start = [0], 0
-    while start < len(x) - 1:
-        end = start + 1
-        while end + 1 < len(x):
-            trial = end + 1
-            chord = np.interp(x[start:trial + 1], [x[start], x[trial]], [y[start], y[trial]])
-            if np.max(np.abs(chord - y[start:trial + 1])) > tolerance:
-                break
-            end = trial
+    """Greedy breakpoints on a sampled curve: indices so that chords stay within tolerance.
+
+    From each breakpoint the chord is extended one sample at a time until it first departs
+    from a sample it spans by more than ``tolerance``; the last chord that held ends the
+    segment. The chords from one start are all tried at once (numpy), with the same
+    arithmetic as :func:`numpy.interp`.
+    """
+    chosen, start, n = [0], 0, len(x)
+    while start < n - 1:
+        xs, ys = x[start:], y[start:]
+        dx, dy = xs - xs[0], ys - ys[0]
+        # error[j, i]: chord from the start to sample j, at sample i (i <= j)
+        with np.errstate(divide="ignore", invalid="ignore"):
+            chord = ys[0] + dy[:, None] * (dx[None, :] / dx[:, None])
+        error = np.abs(chord - ys[None, :])
+        error[np.triu_indices(len(xs), 1)] = 0.0
+        error[:, 0] = 0.0
+        worst = error.max(axis=1)
+        worst[:2] = 0.0  # the first chord (to the next sample) is always kept
+        failing = np.flatnonzero(worst > tolerance)
+        end = start + (failing[0] - 1 if failing.size else len(xs) - 1)
         chosen.append(end)
         start = end
     return np.array(chosen)
@@ -258,7 +271,8 @@ def _infeasible(train: Train, duty: Duty, op: Operation, viol, ambient: float,
     cmap = section.compressor_map
     top = float(np.nanmax(cmap.head(cmap.surge_flow_at_speed(cmap.speed_max, warn=False),
                                     cmap.speed_max, warn=False)))
-    binding = [_binding(op, train, viol, i) for i in range(op.mass_flow.size)]
+    margins = op.margins(train)
+    binding = [_binding(op, train, viol, i, margins) for i in range(op.mass_flow.size)]
     counts = {k: binding.count(k) for k in dict.fromkeys(binding)}
     worst = max(counts, key=counts.get)
     if head > top:

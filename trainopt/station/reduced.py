@@ -10,6 +10,7 @@ from __future__ import annotations
 
 from collections.abc import Iterable, Mapping
 from dataclasses import replace
+from functools import lru_cache
 
 import numpy as np
 from scipy.interpolate import CubicSpline
@@ -104,8 +105,8 @@ class Station:
         basis = HeadBasis(getattr(basis, "value", basis))
         if basis not in self._duties:
             c = self.case
-            self._duties[basis] = Duty.build(c.gas, c.suction_pressure, c.suction_temperature,
-                                             c.discharge_pressure, basis)
+            self._duties[basis] = _duty(c.gas, c.suction_pressure, c.suction_temperature,
+                                        c.discharge_pressure, basis)
         return self._duties[basis]
 
     def price(self, train: Train) -> tuple[float, float]:
@@ -208,6 +209,18 @@ class Station:
                         zip(names, res.x, lo, hi, strict=True)})
             return out
         return through
+
+
+@lru_cache(maxsize=32)
+def _duty(gas, suction_pressure: float, suction_temperature: float, discharge_pressure: float,
+          basis: HeadBasis) -> Duty:
+    """:meth:`Duty.build`, kept for the last conditions seen.
+
+    A duty depends on the gas and the header conditions only (not on the units, the demand
+    or the objective), and tabulating it takes 18 CoolProp compressions (about 0.1 s), so a
+    station asked for many demands at the same conditions builds it once.
+    """
+    return Duty.build(gas, suction_pressure, suction_temperature, discharge_pressure, basis)
 
 
 def _twin_key(train: Train) -> tuple | None:
