@@ -117,3 +117,19 @@ def test_throttled_unit_against_coolprop(demo_case):
     assert_allclose(op.lost_power[0], m * (work - useful_work) * (1 + train.mechanical_loss),
                     rtol=1e-4)
     assert op.lost_power[0] > 0.3 * op.shaft_power[0]
+
+
+def test_capacity_message_and_turndown_name_the_stonewall(low_ratio_station):
+    # The limit named by the curve flows into the capacity message of a split and into
+    # the envelope's turndown table (before: "maximum speed" in both).
+    from trainopt.station.reduced import evaluate_split
+    from trainopt.studies.envelope import turndown
+
+    station = low_ratio_station
+    curve = station.curves["A"]
+    result = evaluate_split(station, {"A": 1.05 * curve.max_flow})
+    assert result.status == "infeasible"
+    assert "set by the stonewall" in result.reason
+    table = turndown(station, [("A", ("A",))])
+    assert table["largest_set_by"].iloc[0] == "A: stonewall"
+    assert table["least_set_by"].iloc[0] == "A: minimum speed"

@@ -619,3 +619,6 @@ def test_throttling_lets_a_station_run_at_a_very_low_ratio(demo_case):
         units["throttle_lost_power_kW"].sum(), rel=1e-12)
     # the speed is the minimum: 0 % margin to it (to the solver's rounding)
     assert units["speed_min_margin_pct"].abs().max() < 1e-9
+    from trainopt.report.terminal import format_result
+
+    assert "Discharge throttle: " in format_result(result)
