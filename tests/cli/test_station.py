@@ -174,12 +174,26 @@ def test_negative_demand(tmp_path):
         "demand: -5 kg/s is negative; give a throughput of zero or more")
 
 
-def test_split_that_does_not_add_up_to_the_case_demand(tmp_path):
-    # the pair case asks for 150 kg/s (tests/data/station_small/gaslib135_pair.yaml)
+def test_split_that_does_not_add_up_to_the_stated_demand(tmp_path):
     assert refused("evaluate", PAIR, "--split", "P1=100 kg/s", "--split", "P2=20 kg/s",
-                   out=tmp_path / "o") == (
+                   "--demand", "150 kg/s", out=tmp_path / "o") == (
         "split: the shares add up to 120.000 kg/s but the demand is 150.000 kg/s; make the "
         "shares add up to the demand, or state the demand they meet (--demand)")
+
+
+def test_readme_evaluate_example_runs_as_written():
+    # README: trainopt evaluate cases/demo/station.yaml --split A="150 kg/s" --split
+    # C="230 kg/s". The demo's case demand is 44 MMSCMD (383.96 kg/s); without --demand the
+    # split's own sum, 380 kg/s, is the demand. B and D are stopped, not offline.
+    readme = (ROOT / "README.md").read_text("utf-8")
+    assert 'trainopt evaluate CASE --split A="150 kg/s" --split C="230 kg/s" ' in readme
+    result = run("evaluate", DEMO, "--split", "A=150 kg/s", "--split", "C=230 kg/s", "--json")
+    assert result.exit_code == 0, result.output
+    data = strict_json(result.stdout)
+    assert data["status"] == "evaluated"
+    assert_allclose(data["demand_kg_s"], 380.0, rtol=1e-15)
+    stopped = {u["name"]: u["status"] for u in data["units"] if not u["running"]}
+    assert stopped == {"B": "available", "D": "available"}
 
 
 def test_demand_without_unit(tmp_path):

@@ -302,8 +302,9 @@ def test_every_json_key_is_documented(pair_result, demo_result):
         missing = {k for k in data if k not in keys}
         missing |= {k for u in data["units"] for k in u if k not in keys}
         missing |= {k for k in data["solver"] if k not in keys}
-        missing |= {k for b in data["baselines"].values() for k in b if k not in keys}
-        missing |= {k for k in data["baselines"] if k not in keys}
+        for group in ("baselines", "baselines_all_units"):
+            missing |= {k for b in data[group].values() for k in b if k not in keys}
+            missing |= {k for k in data[group] if k not in keys}
         assert not missing, sorted(missing)
 
 

@@ -32,7 +32,7 @@ def evaluate_command(
     case_file: Path = typer.Argument(..., help="Station case (YAML)."),
     split: list[str] = typer.Option(..., "--split", help="NAME=QTY, e.g. A=25kg/s (repeat)."),
     demand: str | None = typer.Option(None, "--demand", help="Throughput the split must add up "
-                                      "to; the case's demand by default."),
+                                      "to; by default the split's sum is the demand."),
     as_json: bool = typer.Option(False, "--json", help="Print JSON instead of a table."),
     out: Path | None = typer.Option(None, "--out", help="Folder for JSON, CSV and map pictures."),
 ) -> None:
@@ -49,8 +49,7 @@ def evaluate_command(
             raise InputError("--split", f"unit '{name.strip()}' is given twice")
         shares[name.strip()] = qty.strip()
     case = trainopt.load_case(case_file)
-    target = demand if demand is not None else case.demand_mass_flow()
-    _show(trainopt.evaluate(case, shares, demand=target), as_json, out)
+    _show(trainopt.evaluate(case, shares, demand=demand), as_json, out)
 
 
 def _show(result, as_json: bool, out: Path | None) -> None:

@@ -114,11 +114,45 @@ def format_result(result: StationResult) -> str:
     if solver and "piecewise_objective" in solver:
         lines.append(f"Piecewise objective {solver['piecewise_objective']:.6g}; formulation "
                      f"{solver['formulation']}; solve {solver['solve_seconds'] * 1e3:.0f} ms")
-    for rule, b in d.get("baselines", {}).items():
-        if b["status"] == "feasible":
-            lines.append(f"Against {rule.replace('_', ' ')}: {b['total_shaft_power_kW']:.0f} kW, "
-                         f"saving {b['saving_kW']:.0f} kW ({b['saving_pct']:.2f} %)")
-        else:
-            lines.append(f"Against {rule.replace('_', ' ')}: infeasible ({b['reason']})")
+    lines += _baseline_lines(d)
     lines += ["", CAUTION]
     return "\n".join(lines)
+
+
+_OBJECTIVE_WORDS = {"shaft_power": "shaft power", "energy_input": "driver input",
+                    "cost": "cost"}
+
+
+def _rule_line(rule: str, b: dict, objective: str) -> list[str]:
+    """One rule against the optimum: in the objective's unit, shaft power beside it."""
+    name = rule.replace("_", " ")
+    if b["status"] != "feasible":
+        return [f"Against {name}: infeasible ({b['reason']})"]
+    if "objective_saving" not in b or objective == "shaft_power":
+        line = (f"Against {name}: {b['total_shaft_power_kW']:.0f} kW, saving "
+                f"{b['saving_kW']:.0f} kW ({b['saving_pct']:.2f} %)")
+    else:
+        unit = b["objective_unit"]
+        line = (f"Against {name}: {_OBJECTIVE_WORDS[objective]} {b['total_objective']:.0f} "
+                f"{unit}, saving {b['objective_saving']:.0f} {unit} "
+                f"({b['objective_saving_pct']:.2f} %); shaft power "
+                f"{b['total_shaft_power_kW']:.0f} kW, saving {b['saving_kW']:.0f} kW")
+    return [line] + ([f"  ({b['note']})"] if b.get("note") else [])
+
+
+def _baseline_lines(d: dict) -> list[str]:
+    """The load-sharing rules on the running units, then on every available unit."""
+    lines = []
+    for key, words in (("baselines", "on the units the optimum runs"),
+                       ("baselines_all_units", "on every available unit (a station running "
+                        "all its machines on load-sharing control; the saving includes the "
+                        "choice of which units run)")):
+        rules = d.get(key) or {}
+        if not rules:
+            continue
+        units = next(iter(rules.values())).get("running_units")
+        lines.append(f"Load-sharing rules {words}"
+                     + (f": {', '.join(units)}" if units else ""))
+        for rule, b in rules.items():
+            lines += _rule_line(rule, b, d["objective"])
+    return lines

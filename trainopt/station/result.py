@@ -130,6 +130,9 @@ class StationResult:
         and ``docs/series.md``).
     header : dict
         For a station with a shared interstage header: its pressure and the search.
+    baselines, baselines_all_units : dict
+        The load-sharing rules on the optimum's running set, and on every available unit
+        (:mod:`trainopt.station.baselines`).
     """
 
     case: object
@@ -141,6 +144,7 @@ class StationResult:
     solver: dict = field(default_factory=dict)
     baselines: dict = field(default_factory=dict)
     header: dict = field(default_factory=dict)
+    baselines_all_units: dict = field(default_factory=dict)
 
     @classmethod
     def from_rows(cls, case, demand: float, rows: list[dict], objective: str) -> StationResult:
@@ -215,6 +219,8 @@ class StationResult:
             out["solver"] = self.solver
         if self.baselines:
             out["baselines"] = self.baselines
+        if self.baselines_all_units:
+            out["baselines_all_units"] = self.baselines_all_units
         if self.header:
             out["interstage_header"] = self.header
         return out

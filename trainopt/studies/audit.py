@@ -179,4 +179,4 @@ def audit_history(case, history: History, *, binning: Binning | None = None,
     for reason, count in hours.loc[hours["status"] != "audited", "status"].value_counts().items():
         skipped[str(reason)] = skipped.get(str(reason), 0) + int(count)
     return AuditResult(case, hours, units, skipped, len(frame) + len(history.skipped_rows),
-                       history.interval, bins, binning, seconds)
+                       history.interval, bins, binning, seconds, objective)
