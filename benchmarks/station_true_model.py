@@ -503,7 +503,7 @@ DP: the plain dynamic program of benchmarks/dp_reference.py on the same true mod
 
 
 def print_targets(results: list[dict]) -> None:
-    print("\nTargets of issue 4 (medians over the demands):")
+    print("\nDesign targets (medians over the demands):")
     for o in results:
         limit = TARGET_MEDIAN_SECONDS.get(o["units"])
         if limit is not None:

@@ -62,7 +62,7 @@ def test_boundary_splines_match_the_maps_root_search():
     cmap = load_map(DEMO / "maps" / "motor_unit.yaml")
     lines = boundary_lines(cmap)
     heads = np.linspace(46e3, 80e3, 9)  # inside the surge heads of the tested speeds
-    # 1e-6: cubic splines through 97 points of a smooth line (measured 4e-9).
+    # 1e-6: cubic splines through 97 points of a smooth line (regression value (own output) 4e-9).
     assert_allclose(lines.surge_flow(heads), cmap.surge_flow_at_head(heads), rtol=1e-6)
     heads = np.linspace(27e3, 52e3, 9)
     assert_allclose(lines.stonewall_flow(heads), cmap.stonewall_flow_at_head(heads), rtol=1e-6)
@@ -75,7 +75,7 @@ def test_required_head_polynomial_matches_the_table(trains_station):
     eta = np.linspace(0.45, 1.0, 23)
     direct = table.compress(31e5, 293.15, 47e5, eta, HeadBasis.POLYTROPIC).head
     # 2e-7: degree-5 interpolation in 1/eta of a head that changes by 4 % over the range
-    # (measured 5e-8).
+    # (regression value (own output) 5e-8).
     assert_allclose(head_polynomial(coefficients, eta), direct, rtol=2e-7)
 
 
@@ -307,7 +307,7 @@ def test_two_trains_split_agrees_with_brute_force(trains_case, trains_station):
     total = cost(t1, c1, net) + cost(t2, c2, demand - net)
     brute = float(np.min(total))
     # The optimiser's bound: breakpoint error of both curves plus the MIP gap (1e-4), and
-    # the brute force's own grid; 0.2 % is the issue's target and far above both.
+    # the brute force's own grid; 0.2 % is the design target and far above both.
     assert_allclose(result.total_shaft_power, brute, rtol=2e-3)
     assert result.total_shaft_power <= brute * (1 + 1e-4)
 
@@ -379,3 +379,23 @@ def test_mixed_shaft_and_own_drivers_are_refused(tmp_path, trains_yaml, write_de
     with pytest.raises(InputError,
                        match=r"units\[0\]\.driver: the unit has a driver and some sections"):
         trainopt.load_case(write_demo_variant(tmp_path, data))
+
+
+def test_a_map_that_sets_the_shaft_speed_range_is_named(trains_case):
+    # The case folds the maps' tested speeds into the train's range (T1: the HP map's
+    # lowest speed over its ratio, 5195 rpm, is above the motor's 4500 rpm). Before, the
+    # comparison with the folded range always named the driver.
+    from trainopt.machines.train_operation import shaft_speed_range
+
+    t1 = trains_case.train("T1")
+    hp = t1.sections[1]
+    lo, _, low_by, _ = shaft_speed_range(t1)
+    assert lo == pytest.approx(hp.compressor_map.speed_min / hp.speed_ratio, rel=1e-12)
+    assert low_by == "HP"
+    # at 31 -> 50 bar the least flow is where the shaft reaches that speed: the HP map's
+    station = Station(replace(trains_case, discharge_pressure=50e5))
+    curve = station.curves["T1"]
+    assert (curve.low_limit, curve.low_section) == ("speed_min", "HP")
+    row = trainopt.evaluate(station.case, {"T1": curve.min_flow})
+    assert row.units.loc[row.units["section"] == "HP", "least_flow_limit"].iloc[0] \
+        == "minimum speed (HP)"

@@ -10,6 +10,7 @@ from __future__ import annotations
 
 from collections.abc import Iterable, Mapping
 from dataclasses import replace
+from functools import lru_cache
 
 import numpy as np
 from scipy.interpolate import CubicSpline
@@ -58,9 +59,12 @@ class Station:
         Units to take offline on top of the case's own status.
     objective : str, optional
         ``shaft_power``, ``energy_input`` or ``cost``; the case's by default.
+    throttle : bool, optional
+        Let single-section units run at minimum speed with a discharge throttle where
+        their head lies below the minimum-speed line; the case's ``throttle`` by default.
     reuse : mapping of str to LeastPowerCurve, optional
-        Curves already reduced at these conditions (for this objective, where it matters),
-        taken as they are instead of reduced again; see
+        Curves already reduced at these conditions (for this objective and throttle
+        setting), taken as they are instead of reduced again; see
         :class:`~trainopt.station.reduced_station.ReducedStation`.
     duties : dict, optional
         Compression duties already tabulated at these conditions, by head basis; shared
@@ -68,7 +72,8 @@ class Station:
     """
 
     def __init__(self, case: Case, offline: Iterable[str] = (), objective: str | None = None,
-                 *, reuse: Mapping[str, LeastPowerCurve] | None = None,
+                 throttle: bool | None = None, *,
+                 reuse: Mapping[str, LeastPowerCurve] | None = None,
                  duties: dict[HeadBasis, Duty] | None = None):
         if case.interstage_header is not None:
             raise InputError("interstage_header", "a station with a shared interstage header "
@@ -76,6 +81,7 @@ class Station:
                              "searches the header pressure) or trainopt.station.header")
         self.case = case
         self.objective = chosen_objective(case, objective)
+        self.throttle = bool(case.throttle if throttle is None else throttle)
         offline = list(offline)
         for name in offline:
             case.train(name)
@@ -100,7 +106,8 @@ class Station:
                     self.curves[train.name] = replace(reduced[key], name=train.name)
                     continue
                 self.curves[train.name] = reduce_unit(train, self.duty(train),
-                                                      case.ambient_temperature)
+                                                      case.ambient_temperature,
+                                                      throttle=self.throttle)
                 if key is not None:
                     reduced[key] = self.curves[train.name]
             else:
@@ -114,8 +121,8 @@ class Station:
         basis = HeadBasis(getattr(basis, "value", basis))
         if basis not in self._duties:
             c = self.case
-            self._duties[basis] = Duty.build(c.gas, c.suction_pressure, c.suction_temperature,
-                                             c.discharge_pressure, basis)
+            self._duties[basis] = _duty(c.gas, c.suction_pressure, c.suction_temperature,
+                                        c.discharge_pressure, basis)
         return self._duties[basis]
 
     def price(self, train: Train) -> tuple[float, float]:
@@ -152,7 +159,8 @@ class Station:
         train = self.case.train(name)
         m = np.asarray(through_flow, float)
         if train.is_single_section:
-            op = operate(train, self.duty(train), m, self.case.ambient_temperature)
+            op = operate(train, self.duty(train), m, self.case.ambient_temperature,
+                         self.throttle)
             return (op.speed / train.speed_max,
                     (op.volume_flow - op.control_line_flow) / op.control_line_flow)
         from trainopt.dispatch.series_reduction import train_profile
@@ -224,6 +232,18 @@ class Station:
                         zip(names, res.x, lo, hi, strict=True)})
             return out
         return through
+
+
+@lru_cache(maxsize=32)
+def _duty(gas, suction_pressure: float, suction_temperature: float, discharge_pressure: float,
+          basis: HeadBasis) -> Duty:
+    """:meth:`Duty.build`, kept for the last conditions seen.
+
+    A duty depends on the gas and the header conditions only (not on the units, the demand
+    or the objective), and tabulating it takes 18 CoolProp compressions (about 0.1 s), so a
+    station asked for many demands at the same conditions builds it once.
+    """
+    return Duty.build(gas, suction_pressure, suction_temperature, discharge_pressure, basis)
 
 
 def _twin_key(train: Train) -> tuple | None:

@@ -20,14 +20,16 @@ from __future__ import annotations
 
 from collections.abc import Iterable
 
+import numpy as np
+
 from trainopt.case.loading import Case
 from trainopt.dispatch.solve import Dispatcher
 from trainopt.errors import InputError
-from trainopt.station.baselines import compare_baselines
+from trainopt.station.baselines import compare_all_units, compare_baselines
 from trainopt.station.reduced import Station, chosen_objective, requested_demand, station_result
 from trainopt.station.result import StationResult
 
-__all__ = ["ReducedStation", "answer"]
+__all__ = ["ReducedStation", "answer", "objective_error_bound"]
 
 
 def infeasible_units_text(station: Station) -> str:
@@ -78,10 +80,44 @@ def answer(station: Station, m_demand: float, dispatcher: Dispatcher | None = No
                      "solve_seconds": dispatch.solve_seconds,
                      "mip_gap": dispatch.mip_gap_achieved,
                      "breakpoint_error_W": {n: c.error_bound for n, c in station.curves.items()},
+                     "objective_error_bound": {n: objective_error_bound(station, n)
+                                               for n, c in station.curves.items()
+                                               if c.feasible},
+                     "objective_unit": ("W" if station.objective != "cost" else
+                                        f"{case.economics.currency}/s"),
                      "convex": {n: c.convex for n, c in station.curves.items()}}
     if baselines:
         result.baselines = compare_baselines(station, result, m_demand)
+        result.baselines_all_units = compare_all_units(station, result, m_demand,
+                                                       result.baselines)
     return result
+
+
+def objective_error_bound(station: Station, name: str) -> float:
+    """Largest gap between a unit's piecewise-linear objective and its true sample.
+
+    The breakpoints are chosen on shaft power (:mod:`trainopt.dispatch.reduction`); the
+    dispatch model interpolates the objective between them. For ``energy_input`` and
+    ``cost`` the driver's curve bends the objective differently, so its own gap is
+    measured here on the same fine true-model sample.
+
+    Parameters
+    ----------
+    station : Station
+    name : str
+        A unit with a feasible curve.
+
+    Returns
+    -------
+    float
+        [W] for ``shaft_power`` and ``energy_input``, [currency/s] for ``cost``.
+    """
+    curve = station.curves[name]
+    if station.objective == "shaft_power":
+        return float(curve.error_bound)
+    exact = station.curve_cost(name, sample=True)
+    chords = np.interp(curve.sample_flow, curve.mass_flow, station.curve_cost(name))
+    return float(np.max(np.abs(chords - exact)))
 
 
 class ReducedStation:

@@ -11,6 +11,7 @@ same way.
 from __future__ import annotations
 
 from collections.abc import Iterable, Mapping
+from dataclasses import replace
 
 from trainopt.case.loading import Case
 from trainopt.errors import InputError
@@ -18,12 +19,12 @@ from trainopt.machines.train import UnitStatus
 from trainopt.physics.units import Kind, parse_flow, parse_quantity
 from trainopt.station.header import evaluate_header_split, optimize_header
 from trainopt.station.reduced import Station, evaluate_split, requested_demand
-from trainopt.station.reduced_station import answer
+from trainopt.station.reduced_station import answer, objective_error_bound  # noqa: F401 (public here too)
 from trainopt.station.result import StationResult
 
 
 def optimize(case: Case, demand=None, offline: Iterable[str] = (), objective: str | None = None,
-             baselines: bool = True) -> StationResult:
+             baselines: bool = True, throttle: bool | None = None) -> StationResult:
     """Least-objective split of the demand across the station's units.
 
     Parameters
@@ -39,12 +40,19 @@ def optimize(case: Case, demand=None, offline: Iterable[str] = (), objective: st
         ``shaft_power`` (default of cases), ``energy_input`` or ``cost``.
     baselines : bool, optional
         Also evaluate equal-flow, equal-speed and equal-margin sharing.
+    throttle : bool, optional
+        Let single-section units run at minimum speed with a discharge throttle where the
+        pressure ratio puts their head below the minimum-speed line (the case's
+        ``throttle`` by default); rows then show the throttled pressure drop and the lost
+        power.
 
     Returns
     -------
     StationResult
         Status ``"optimal"`` with the per-unit table, or ``"infeasible"`` with the reason.
     """
+    if throttle is not None and bool(throttle) != case.throttle:
+        case = replace(case, throttle=bool(throttle))
     if case.interstage_header is not None:
         return optimize_header(case, demand, offline, objective, baselines)
     station = Station(case, offline, objective)
@@ -61,15 +69,17 @@ def evaluate(case: Case, split: Mapping[str, object], demand=None) -> StationRes
     Parameters
     ----------
     case : Case
+    split : mapping of str to str or float
+        Unit (or train) name to net mass flow [kg/s] (or a flow string with its unit).
+        Units absent are stopped (they keep the case's status; they are not offline).
+        Each running unit gets the least recycle it needs. For
+        a station with a shared interstage header, the key ``interstage_header`` gives
+        its pressure (``"48 bar"`` or [Pa]).
     demand : str or float, optional
         The station throughput the split must add up to (a flow with its unit, or a mass
         flow [kg/s]); when given, a split whose net flows differ from it by more than
-        :data:`SPLIT_TOLERANCE` is refused. The command line passes the case's demand.
-    split : mapping of str to str or float
-        Unit (or train) name to net mass flow [kg/s] (or a flow string with its unit).
-        Units absent are stopped. Each running unit gets the least recycle it needs. For
-        a station with a shared interstage header, the key ``interstage_header`` gives
-        its pressure (``"48 bar"`` or [Pa]).
+        :data:`SPLIT_TOLERANCE` is refused. By default the split's own sum is the demand
+        (the case's demand is not imposed on a split).
 
     Returns
     -------
@@ -102,7 +112,7 @@ def evaluate(case: Case, split: Mapping[str, object], demand=None) -> StationRes
             raise InputError("split", f"the shares add up to {total:.3f} kg/s but the demand is "
                              f"{target:.3f} kg/s", "make the shares add up to the demand, or "
                              "state the demand they meet (--demand)")
-    offline = [t.name for t in case.trains if t.name not in flows]
+    left_out = [t.name for t in case.trains if t.name not in flows]
     for name in flows:
         if case.train(name).status is UnitStatus.OFFLINE:
             raise InputError(f"split.{name}", "the case marks this unit offline",
@@ -112,7 +122,11 @@ def evaluate(case: Case, split: Mapping[str, object], demand=None) -> StationRes
                     parse_quantity(header_pressure, Kind.PRESSURE, "split.interstage_header",
                                    atmospheric=case.atmospheric_pressure))
         return evaluate_header_split(case, flows, pressure)
-    station = Station(case, offline)
+    # units left out of the split are not reduced (they do not run), but they are stopped,
+    # not offline: they keep the status the case gives them
+    station = Station(case, left_out)
+    for name in left_out:
+        station.status[name] = case.train(name).status
     return evaluate_split(station, flows)
 
 
