@@ -21,6 +21,11 @@ from trainopt.machines.maps.fit import (
     fit_map_file,
     load_map,
 )
+from trainopt.machines.maps.least_flow import (
+    ControlLine,
+    LeastFlowRule,
+    parse_least_flow_rule,
+)
 from trainopt.machines.maps.margins import (
     control_line_margin,
     speed_margins,
@@ -38,6 +43,8 @@ from trainopt.machines.maps.table import (
 __all__ = [
     "DEFAULT_CONTROL_LINE_OFFSET",
     "CompressorMap",
+    "ControlLine",
+    "LeastFlowRule",
     "HeadBasis",
     "MapFit",
     "MapRangeWarning",
@@ -51,6 +58,7 @@ __all__ = [
     "fit_map_file",
     "load_map",
     "map_from_coefficients",
+    "parse_least_flow_rule",
     "read_map_source",
     "speed_margins",
     "stonewall_margin",
