@@ -147,7 +147,8 @@ def operate(train: Train, duty: Duty, mass_flow, ambient_temperature: float) -> 
     if train.max_power is not None:
         available = np.minimum(available, train.max_power)
     energy = np.asarray(driver.energy_input(shaft, speed, ambient_temperature), float)
-    surge = cmap.surge_flow_at_head(head)
+    line = section.control_line(head)  # least flow under the unit's rule (docs/maps.md)
+    surge = line.surge_flow
     stonewall = cmap.stonewall_flow_at_head(head)
     stonewall = np.where(np.isfinite(stonewall), stonewall,
                          cmap.stonewall_flow_at_speed(n_section, warn=False))
@@ -155,7 +156,7 @@ def operate(train: Train, duty: Duty, mass_flow, ambient_temperature: float) -> 
         mass_flow=m, volume_flow=q, speed=speed, head=head, efficiency=eta,
         discharge_temperature=duty.discharge_temperature(eta), gas_power=gas_power,
         shaft_power=shaft, available_power=available * np.ones_like(m), energy_input=energy,
-        surge_flow=surge, control_line_flow=surge * (1.0 + section.surge_control_offset),
+        surge_flow=surge, control_line_flow=line.flow,
         stonewall_flow=stonewall,
     )
 

@@ -65,6 +65,8 @@ class ControlLine:
     extrapolated : numpy.ndarray of bool
         True where the head lies outside the tested heads of the line that binds and the
         fan-law extension was used.
+    surge_extrapolated : numpy.ndarray of bool
+        True where the surge flow came from the fan-law extension.
     """
 
     flow: np.ndarray
@@ -72,6 +74,7 @@ class ControlLine:
     peak_flow: np.ndarray
     binds: np.ndarray
     extrapolated: np.ndarray
+    surge_extrapolated: np.ndarray
 
 
 def parse_least_flow_rule(value) -> LeastFlowRule:
@@ -214,6 +217,7 @@ def control_line(cmap: CompressorMap, head, offset, rule=LeastFlowRule.SURGE_LIN
         peak_flow=np.broadcast_to(peak, shape),
         binds=np.broadcast_to(np.where(use_peak, BINDS_PEAK, BINDS_SURGE), shape),
         extrapolated=np.broadcast_to(np.where(use_peak, peak_out, surge_out), shape),
+        surge_extrapolated=np.broadcast_to(surge_out, shape),
     )
 
 
