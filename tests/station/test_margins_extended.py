@@ -37,4 +37,5 @@ def test_unit_below_the_lowest_surge_head_keeps_flagged_margins():
     assert_allclose(row.surge_margin_pct, 100 * (q / surge - 1), rtol=1e-4)
     assert_allclose(row.control_line_margin_pct, 100 * (q / (1.1 * surge) - 1), rtol=1e-4)
     assert bool(row.surge_margin_extrapolated) is True
-    assert row.least_flow_rule == "surge_line" and row.least_flow_binds == "surge line"
+    assert row.least_flow_rule == "surge_line"
+    assert row.least_flow_binds == "surge line"

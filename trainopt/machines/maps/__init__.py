@@ -33,6 +33,11 @@ from trainopt.machines.maps.margins import (
     surge_margin_at_head,
     surge_margin_at_speed,
 )
+from trainopt.machines.maps.plausibility import (
+    MapUnitWarning,
+    check_map_units,
+    flow_coefficient_and_tip_speed,
+)
 from trainopt.machines.maps.table import (
     MapTable,
     PointKind,
@@ -49,13 +54,16 @@ __all__ = [
     "MapFit",
     "MapRangeWarning",
     "MapTable",
+    "MapUnitWarning",
     "PointKind",
     "SpeedDependence",
     "TestConditions",
+    "check_map_units",
     "control_line_margin",
     "fan_law_departure",
     "fit_map",
     "fit_map_file",
+    "flow_coefficient_and_tip_speed",
     "load_map",
     "map_from_coefficients",
     "parse_least_flow_rule",

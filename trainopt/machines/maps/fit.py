@@ -23,8 +23,9 @@ from trainopt.machines.maps.compressor_map import (
     CompressorMap,
     Monomials,
     SpeedCurve,
-    check_map_shape,
 )
+from trainopt.machines.maps.plausibility import check_map_units
+from trainopt.machines.maps.shape import check_map_shape
 from trainopt.machines.maps.table import MapTable, PointKind, read_map_source
 
 MAX_FLOW_DEGREE = 3
@@ -190,6 +191,7 @@ def fit_map(
         f"{table.path}: fitted with {choice.value} speed "
         f"dependence, degrees {head_degree} (head) and {efficiency_degree} (efficiency)",
     )
+    check_map_units(compressor_map, table.path, table.impeller_diameter)
     points, line_table = _residuals(compressor_map, table)
     return MapFit(compressor_map, points, line_table, choice, head_degree, efficiency_degree)
 

@@ -18,12 +18,10 @@ from __future__ import annotations
 
 from dataclasses import dataclass
 from enum import Enum
-from typing import TYPE_CHECKING
 
 import numpy as np
 
-if TYPE_CHECKING:  # pragma: no cover
-    from trainopt.machines.maps.compressor_map import CompressorMap
+from trainopt.machines.maps.roots import solve_monotone
 
 _PEAK_GRID = 201
 """Flows per speed line searched for the peak when the line is above cubic in flow [-]."""
@@ -86,7 +84,7 @@ def parse_least_flow_rule(value) -> LeastFlowRule:
     return LeastFlowRule(aliases.get(text, text))
 
 
-def peak_flow_at_speed(cmap: CompressorMap, speed) -> np.ndarray:
+def peak_flow_at_speed(cmap, speed) -> np.ndarray:
     """Flow [m³/s] of the highest head on the speed line at speed [1/s], surge to stonewall.
 
     Equals the surge flow where head falls with flow all along the line. For head
@@ -122,12 +120,12 @@ def peak_flow_at_speed(cmap: CompressorMap, speed) -> np.ndarray:
     return np.where(np.isfinite(low) & np.isfinite(high), flow, np.nan)
 
 
-def peak_head_at_speed(cmap: CompressorMap, speed) -> np.ndarray:
+def peak_head_at_speed(cmap, speed) -> np.ndarray:
     """Highest head [J/kg] on the speed line at speed [1/s] (at :func:`peak_flow_at_speed`)."""
     return cmap.head_surface(peak_flow_at_speed(cmap, speed), speed)
 
 
-def peak_flow_at_head(cmap: CompressorMap, head, *, extend: bool = False) -> np.ndarray:
+def peak_flow_at_head(cmap, head, *, extend: bool = False) -> np.ndarray:
     """Flow [m³/s] of the speed-line peak whose head is ``head`` [J/kg].
 
     The peaks of the tested speed lines form a line from the lowest to the highest
@@ -135,18 +133,16 @@ def peak_flow_at_head(cmap: CompressorMap, head, *, extend: bool = False) -> np.
     peak head equals ``head`` is unique. Outside the tested peak heads: NaN, or with
     ``extend`` the fan-law parabola through the end peak.
     """
-    from trainopt.machines.maps.compressor_map import _solve_monotone
-
     head = np.asarray(head, dtype=float)
     lo, hi = np.full(head.shape, cmap.speed_min), np.full(head.shape, cmap.speed_max)
-    speed = _solve_monotone(lambda n: peak_head_at_speed(cmap, n) - head, lo, hi, head)
+    speed = solve_monotone(lambda n: peak_head_at_speed(cmap, n) - head, lo, hi, head)
     flow = peak_flow_at_speed(cmap, speed)
     if extend:
         flow, _ = _extend(cmap, head, flow, lambda n: peak_flow_at_speed(cmap, n))
     return flow
 
 
-def surge_flow_extended(cmap: CompressorMap, head) -> tuple[np.ndarray, np.ndarray]:
+def surge_flow_extended(cmap, head) -> tuple[np.ndarray, np.ndarray]:
     """Surge flow [m³/s] at head [J/kg], extended beyond the tested surge heads.
 
     Returns
@@ -164,8 +160,9 @@ def surge_flow_extended(cmap: CompressorMap, head) -> tuple[np.ndarray, np.ndarr
     return _extend(cmap, head, flow, lambda n: cmap.surge_line.flow_at_speed(cmap.head_surface, n))
 
 
-def control_line(cmap: CompressorMap, head, offset, rule=LeastFlowRule.SURGE_LINE, *,
-                 extend: bool = False) -> ControlLine:
+def control_line(
+    cmap, head, offset, rule=LeastFlowRule.SURGE_LINE, *, extend: bool = False
+) -> ControlLine:
     """The surge control line at head [J/kg] under a least-flow rule.
 
     Parameters
@@ -221,7 +218,7 @@ def control_line(cmap: CompressorMap, head, offset, rule=LeastFlowRule.SURGE_LIN
     )
 
 
-def _extend(cmap: CompressorMap, head, flow, flow_at_speed) -> tuple[np.ndarray, np.ndarray]:
+def _extend(cmap, head, flow, flow_at_speed) -> tuple[np.ndarray, np.ndarray]:
     """Fill NaN flows by the parabola ``Q_end sqrt(H / H_end)`` through the nearer end point.
 
     ``flow_at_speed(N)`` gives the line's flow at a speed; its ends are at the lowest and

@@ -88,6 +88,8 @@ class MapTable:
         Fit option from the metadata (``fit.speed_dependence``), if given.
     speed_dependence_field : str
         Where that option was written (``file:line:column``).
+    impeller_diameter : float or None
+        Impeller outer diameter [m], if stated (``impeller_diameter``), for the unit check.
     """
 
     name: str
@@ -100,6 +102,7 @@ class MapTable:
     description: str = ""
     speed_dependence: str | None = None
     speed_dependence_field: str = ""
+    impeller_diameter: float | None = None
 
     @property
     def speed_lines(self) -> list[pd.DataFrame]:
@@ -123,7 +126,16 @@ _EXAMPLE = {
     "efficiency": "efficiency [-]",
 }
 _HEADER_CELL = re.compile(r"^\s*([A-Za-z_]+)\s*(?:\[\s*(.*?)\s*\])?\s*$")
-_METADATA_KEYS = {"name", "description", "basis", "table", "coefficients", "test_conditions", "fit"}
+_METADATA_KEYS = {
+    "name",
+    "description",
+    "basis",
+    "table",
+    "coefficients",
+    "test_conditions",
+    "fit",
+    "impeller_diameter",
+}
 
 
 def read_map_source(path: str | Path) -> MapTable | CompressorMap:
@@ -167,8 +179,16 @@ def read_map_source(path: str | Path) -> MapTable | CompressorMap:
             )
     name = str(meta.get("name", meta_path.stem))
     basis = _basis(meta, marks, meta_path)
+    diameter = None
+    if meta.get("impeller_diameter") is not None:
+        where = marks["impeller_diameter"]
+        diameter = parse_quantity(meta["impeller_diameter"], Kind.LENGTH, where)
+        if not diameter > 0:
+            raise InputError(where, "is not positive", "give the impeller diameter, e.g. '0.45 m'")
     if "coefficients" in meta:
-        return coefficient_map_from_yaml(meta["coefficients"], marks, name, basis, str(meta_path))
+        return coefficient_map_from_yaml(
+            meta["coefficients"], marks, name, basis, str(meta_path), impeller_diameter=diameter
+        )
     if "table" not in meta:
         raise InputError(
             str(meta_path),
@@ -193,6 +213,7 @@ def read_map_source(path: str | Path) -> MapTable | CompressorMap:
         description=str(meta.get("description", "")).strip(),
         speed_dependence=fit.get("speed_dependence"),
         speed_dependence_field=marks.get("fit.speed_dependence", marks.get("fit", "")),
+        impeller_diameter=diameter,
     )
 
 
