@@ -198,6 +198,10 @@ def write_fit_report(map_path: str | Path, out_dir: str | Path) -> dict[str, Pat
         _display(fit.points).to_csv(paths["points"], index=False, float_format="%.6g")
         _display(fit.lines).to_csv(paths["lines"], index=False, float_format="%.6g")
         text += _fit_text(fit)
+        if fit.conversion is not None:
+            paths["conversion"] = out_dir / f"{stem}_head_conversion.csv"
+            _display(fit.conversion).to_csv(paths["conversion"], index=False, float_format="%.8g")
+            text += ["", fit.conversion_note + f"; per point in {paths['conversion'].name}"]
     departure = _display(fan_law_departure(m)).astype({"speed [rpm]": int})
     text += [
         "",
@@ -260,4 +264,8 @@ def _display(frame: pd.DataFrame) -> pd.DataFrame:
             out[column], renames[column] = out[column] / 1e3, f"{column} [kJ/kg]"
         elif column.endswith(("flow", "flow_fit")):
             renames[column] = f"{column} [m3/s]"
+        elif column == "discharge_pressure":
+            out[column], renames[column] = out[column] / 1e5, "discharge_pressure [bar]"
+        elif column == "pressure_ratio":
+            renames[column] = "pressure_ratio [-]"
     return out.rename(columns=renames)

@@ -24,6 +24,7 @@ from trainopt.machines.maps.compressor_map import (
     CompressorMap,
     HeadBasis,
 )
+from trainopt.machines.maps.pressure_curves import PRESSURE_COLUMNS, heads_from_pressures
 from trainopt.physics.units import Kind, parse_quantity
 
 MIN_POINTS_PER_LINE = 3
@@ -90,6 +91,12 @@ class MapTable:
         Where that option was written (``file:line:column``).
     impeller_diameter : float or None
         Impeller outer diameter [m], if stated (``impeller_diameter``), for the unit check.
+    conversion : pandas.DataFrame or None
+        Where the table gave pressure ratio or discharge pressure instead of head, the
+        conversion per point (see
+        :func:`~trainopt.machines.maps.pressure_curves.heads_from_pressures`).
+    conversion_note : str
+        One line saying how heads were converted; empty when the table gave head.
     """
 
     name: str
@@ -103,6 +110,8 @@ class MapTable:
     speed_dependence: str | None = None
     speed_dependence_field: str = ""
     impeller_diameter: float | None = None
+    conversion: pd.DataFrame | None = None
+    conversion_note: str = ""
 
     @property
     def speed_lines(self) -> list[pd.DataFrame]:
@@ -117,13 +126,18 @@ _COLUMNS = {
     "head": Kind.HEAD,
     "efficiency": Kind.DIMENSIONLESS,
     "point": None,
+    "pressure_ratio": Kind.DIMENSIONLESS,
+    "discharge_pressure": Kind.PRESSURE,
 }
-_REQUIRED = ("speed", "flow", "head")
+_REQUIRED = ("speed", "flow")
+_HEAD_COLUMNS = ("head", *PRESSURE_COLUMNS)
 _EXAMPLE = {
     "speed": "speed [rpm]",
     "flow": "flow [m3/s]",
     "head": "head [kJ/kg]",
     "efficiency": "efficiency [-]",
+    "pressure_ratio": "pressure_ratio [-]",
+    "discharge_pressure": "discharge_pressure [bar]",
 }
 _HEADER_CELL = re.compile(r"^\s*([A-Za-z_]+)\s*(?:\[\s*(.*?)\s*\])?\s*$")
 _METADATA_KEYS = {
@@ -317,8 +331,28 @@ def _read_csv(path: Path, **metadata) -> MapTable:
             )
         records.append(_record(path, number, dict(zip(names, cells, strict=True)), factors, units))
     points = pd.DataFrame(records, columns=["speed", "flow", "head", "efficiency", "kind", "line"])
+    column = next(name for name in _HEAD_COLUMNS if name in names)
+    conversion, note = None, ""
+    if column != "head":
+        points[column] = points["head"]
+        heads, conversion, note = heads_from_pressures(
+            points,
+            column,
+            metadata["test_conditions"],
+            metadata["basis"],
+            str(path),
+            header_line,
+        )
+        points = points.drop(columns=column).assign(head=heads)
+        factors, units = {**factors, "head": 1e3}, {**units, "head": "kJ/kg (converted)"}
     table = MapTable(
-        points=points, path=str(path), header_line=header_line, units=units, **metadata
+        points=points,
+        path=str(path),
+        header_line=header_line,
+        units=units,
+        conversion=conversion,
+        conversion_note=note,
+        **metadata,
     )
     _check_lines(table, factors)
     return table
@@ -355,8 +389,16 @@ def _header(path: Path, number: int, text: str):
             raise InputError(
                 f"{path}:{number}:{name}",
                 f"no {name!r} column",
-                f"the header needs {', '.join(_REQUIRED)} with units",
+                "the header needs speed, flow and head (or pressure_ratio or "
+                "discharge_pressure) with units",
             )
+    given = [name for name in _HEAD_COLUMNS if name in names]
+    if len(given) != 1:
+        raise InputError(
+            f"{path}:{number}:{given[1] if given else 'head'}",
+            "no 'head' column" if not given else f"both {given[0]!r} and {given[1]!r} given",
+            "give one of head, pressure_ratio or discharge_pressure (absolute), with its unit",
+        )
     return names, factors, units
 
 
@@ -401,7 +443,7 @@ def _record(path: Path, number: int, cells: dict[str, str], factors, units) -> t
     return (
         values["speed"],
         values["flow"],
-        values["head"],
+        next(values[name] for name in _HEAD_COLUMNS if name in values),
         values.get("efficiency", np.nan),
         kind,
         number,
