@@ -1,10 +1,11 @@
 """Which maps can be evaluated: the shape checks run when a map is built.
 
 A map is refused only where an evaluation the program needs would have no answer or more
-than one (see docs/maps.md, "What a map must satisfy"). Head rising with flow between the
-surge line and the peak of a speed line is accepted: for a given flow and head the speed
-is still unique, because head rises with speed at a fixed flow, and the inverse that gives
-flow for a speed and head answers on the falling part of the line, right of its peak.
+than one (docs/maps.md, "Checks after the fit: what a map must satisfy"). Head rising with
+flow between the surge line and the peak of a speed line is accepted: for a given flow and
+head the speed is still unique, because head rises with speed at a fixed flow, and the
+inverse that gives flow for a speed and head answers on the falling part of the line, right
+of its peak.
 """
 
 from __future__ import annotations
