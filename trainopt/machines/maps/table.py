@@ -16,13 +16,18 @@ from pathlib import Path
 
 import numpy as np
 import pandas as pd
-import yaml
 
 from trainopt.errors import InputError
 from trainopt.machines.maps.coefficients import coefficient_map_from_yaml
 from trainopt.machines.maps.compressor_map import (
     CompressorMap,
     HeadBasis,
+)
+from trainopt.machines.maps.metadata import (
+    TestConditions,
+    read_basis,
+    read_test_conditions,
+    read_yaml_with_marks,
 )
 from trainopt.machines.maps.pressure_curves import PRESSURE_COLUMNS, heads_from_pressures
 from trainopt.physics.units import Kind, parse_quantity
@@ -38,27 +43,6 @@ class PointKind(Enum):
     SPEED_LINE = ""
     SURGE = "surge"
     STONEWALL = "stonewall"
-
-
-@dataclass(frozen=True)
-class TestConditions:
-    """Gas and suction conditions of the test that produced a map (for the record).
-
-    Parameters
-    ----------
-    gas : str or dict
-        Description of the test gas, or its composition as mole fractions [-].
-    suction_pressure : float or None
-        Absolute suction pressure of the test [Pa].
-    suction_temperature : float or None
-        Suction temperature of the test [K].
-    """
-
-    __test__ = False  # not a pytest test class
-
-    gas: str | dict[str, float] | None = None
-    suction_pressure: float | None = None
-    suction_temperature: float | None = None
 
 
 @dataclass(frozen=True, eq=False)
@@ -185,14 +169,14 @@ def read_map_source(path: str | Path) -> MapTable | CompressorMap:
         meta_path = path
     if not meta_path.exists():
         raise InputError(str(meta_path), "no such map file")
-    meta, marks = _read_yaml(meta_path)
+    meta, marks = read_yaml_with_marks(meta_path)
     for key in meta:
         if key not in _METADATA_KEYS:
             raise InputError(
                 marks[key], f"unknown key {key!r}", f"use only {', '.join(sorted(_METADATA_KEYS))}"
             )
     name = str(meta.get("name", meta_path.stem))
-    basis = _basis(meta, marks, meta_path)
+    basis = read_basis(meta, marks, meta_path)
     diameter = None
     if meta.get("impeller_diameter") is not None:
         where = marks["impeller_diameter"]
@@ -223,84 +207,12 @@ def read_map_source(path: str | Path) -> MapTable | CompressorMap:
         table_path,
         name=name,
         basis=basis,
-        test_conditions=_test_conditions(meta.get("test_conditions"), marks),
+        test_conditions=read_test_conditions(meta.get("test_conditions"), marks),
         description=str(meta.get("description", "")).strip(),
         speed_dependence=fit.get("speed_dependence"),
         speed_dependence_field=marks.get("fit.speed_dependence", marks.get("fit", "")),
         impeller_diameter=diameter,
     )
-
-
-# metadata ------------------------------------------------------------------------------
-
-
-def _read_yaml(path: Path) -> tuple[dict, dict[str, str]]:
-    """Read a YAML mapping and, for each key path (``fit.speed_dependence``), its location."""
-    text = path.read_text()
-    try:
-        root = yaml.compose(text, Loader=yaml.SafeLoader)
-        data = yaml.safe_load(text)
-    except yaml.YAMLError as exc:
-        mark = getattr(exc, "problem_mark", None)
-        where = f"{path}:{mark.line + 1}:{mark.column + 1}" if mark else str(path)
-        raise InputError(where, f"not valid YAML: {getattr(exc, 'problem', exc)}") from exc
-    if not isinstance(data, dict):
-        raise InputError(f"{path}:1:1", "expected a mapping of keys (name, basis, table, ...)")
-    marks: dict[str, str] = {}
-
-    def walk(node, prefix):
-        if isinstance(node, yaml.MappingNode):
-            for key, value in node.value:
-                mark = key.start_mark
-                marks[prefix + str(key.value)] = f"{path}:{mark.line + 1}:{mark.column + 1}"
-                walk(value, f"{prefix}{key.value}.")
-
-    walk(root, "")
-    return data, marks
-
-
-def _basis(meta: dict, marks: dict[str, str], path: Path) -> HeadBasis:
-    if "basis" not in meta:
-        raise InputError(
-            str(path), "no 'basis' key", "add 'basis: polytropic' or 'basis: isentropic'"
-        )
-    try:
-        return HeadBasis(str(meta["basis"]).strip().lower())
-    except ValueError:
-        raise InputError(
-            marks["basis"],
-            f"basis {meta['basis']!r} is not known",
-            "write polytropic or isentropic",
-        ) from None
-
-
-def _test_conditions(raw, marks: dict[str, str]) -> TestConditions:
-    if raw is None:
-        return TestConditions()
-    if not isinstance(raw, dict):
-        raise InputError(
-            marks["test_conditions"],
-            "expected a mapping (gas, suction_pressure, suction_temperature)",
-        )
-    known = {
-        "gas": None,
-        "suction_pressure": Kind.PRESSURE,
-        "suction_temperature": Kind.TEMPERATURE,
-    }
-    values = {}
-    for key, value in raw.items():
-        where = marks[f"test_conditions.{key}"]
-        if key not in known:
-            raise InputError(where, f"unknown key {key!r}", f"use {', '.join(known)}")
-        values[key] = value if known[key] is None else parse_quantity(value, known[key], where)
-    gas = values.get("gas")
-    if isinstance(gas, dict):
-        total = sum(float(x) for x in gas.values())
-        if abs(total - 1.0) > 1e-3:
-            raise InputError(
-                marks["test_conditions.gas"], f"mole fractions add up to {total:.4f}, not 1"
-            )
-    return TestConditions(**values)
 
 
 # table ---------------------------------------------------------------------------------
