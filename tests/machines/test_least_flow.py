@@ -134,3 +134,17 @@ def test_surge_margin_below_the_lowest_surge_point_is_extended(tmp_path):
     assert_allclose(line.flow, 1.1 * 0.8 * np.sqrt(30 / 65.44), rtol=1e-9)
     assert_allclose(surge_margin_at_head(m, 1.0, h, extend=True),
                     1.0 / (0.8 * np.sqrt(30 / 65.44)) - 1, rtol=1e-9)
+
+
+def test_map_picture_draws_the_peak_and_the_rule_control_line(gaslib40):
+    from trainopt.report.map_picture import plot_map
+
+    fig = plot_map(gaslib40, least_flow_rule="larger")
+    labels = {line.get_label(): line for line in fig.axes[0].get_lines()}
+    assert "speed-line peak" in labels
+    control = labels["surge control line (10 % of the larger of surge and peak flow)"]
+    q, h = control.get_data()
+    # each drawn point is 1.1 times the larger of surge and peak flow at its head
+    h = 1e3 * h[5:-5]
+    expected = 1.1 * np.fmax(gaslib40.surge_flow_at_head(h), gaslib40.peak_flow_at_head(h))
+    assert_allclose(q[5:-5], expected, rtol=1e-9)

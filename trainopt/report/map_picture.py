@@ -17,6 +17,7 @@ from matplotlib.figure import Figure
 
 from trainopt.machines.maps.compressor_map import DEFAULT_CONTROL_LINE_OFFSET, CompressorMap
 from trainopt.machines.maps.fit import MapFit, fan_law_departure, fit_map
+from trainopt.machines.maps.least_flow import LeastFlowRule, parse_least_flow_rule
 from trainopt.machines.maps.table import read_map_source
 
 _INK = "#1d2b3a"
@@ -38,6 +39,7 @@ def plot_map(
     points: pd.DataFrame | None = None,
     control_line_offset: float = DEFAULT_CONTROL_LINE_OFFSET,
     speeds=None,
+    least_flow_rule=None,
 ) -> Figure:
     """Draw a map: speed lines, efficiency islands, surge, control and stonewall lines.
 
@@ -53,6 +55,10 @@ def plot_map(
     speeds : array_like, optional
         Speeds of the lines to draw [1/s]; by default the measured speeds, else five
         across the tested range.
+    least_flow_rule : LeastFlowRule or str, optional
+        The unit's least-flow rule; the control line is drawn at ``1 + offset`` times the
+        least flow under it (default the surge line). The peak of the speed lines is drawn
+        where it lies right of the surge line.
 
     Returns
     -------
@@ -83,13 +89,33 @@ def plot_map(
         surge_flow, stonewall_flow = flow[:, 0], flow[:, -1]
         surge_head, stonewall_head = head[:, 0] / 1e3, head[:, -1] / 1e3
         ax.plot(surge_flow, surge_head, color=_SURGE, lw=2.2, label="surge line")
+        peak_flow = m.peak_flow_at_speed(speed[:, 0])
+        peak_head = m.head(peak_flow, speed[:, 0], warn=False) / 1e3
+        if np.any(peak_flow > surge_flow * 1.005):
+            ax.plot(peak_flow, peak_head, color=_SURGE, lw=1.0, ls=":", label="speed-line peak")
+        rule = LeastFlowRule.SURGE_LINE if least_flow_rule is None else least_flow_rule
+        rule = parse_least_flow_rule(rule)
+        if rule is LeastFlowRule.SURGE_LINE:
+            control_flow, control_head = (1 + control_line_offset) * surge_flow, surge_head
+        else:
+            control_head = np.linspace(
+                min(surge_head.min(), peak_head.min()), max(surge_head.max(), peak_head.max()), 80
+            )
+            control_flow = m.control_line_flow_at_head(
+                1e3 * control_head, control_line_offset, rule
+            )
+        where = {
+            LeastFlowRule.SURGE_LINE: "surge flow",
+            LeastFlowRule.SPEED_LINE_PEAK: "the speed-line peak flow",
+            LeastFlowRule.LARGER: "the larger of surge and peak flow",
+        }[rule]
         ax.plot(
-            (1 + control_line_offset) * surge_flow,
-            surge_head,
+            control_flow,
+            control_head,
             color=_CONTROL,
             lw=1.6,
             ls=(0, (6, 3)),
-            label=f"surge control line ({100 * control_line_offset:.0f} % of surge flow)",
+            label=f"surge control line ({100 * control_line_offset:.0f} % of {where})",
         )
         ax.plot(
             stonewall_flow,
