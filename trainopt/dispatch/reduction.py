@@ -147,7 +147,7 @@ def operate(train: Train, duty: Duty, mass_flow, ambient_temperature: float) -> 
     if train.max_power is not None:
         available = np.minimum(available, train.max_power)
     energy = np.asarray(driver.energy_input(shaft, speed, ambient_temperature), float)
-    line = section.control_line(head)  # least flow under the unit's rule (docs/maps.md)
+    line = section.control_line(head, extend=True)  # unit's least-flow rule, docs/maps.md
     surge = line.surge_flow
     stonewall = cmap.stonewall_flow_at_head(head)
     stonewall = np.where(np.isfinite(stonewall), stonewall,
