@@ -273,7 +273,8 @@ def _build(s: CaseSchema, path: Path, load_map) -> Case:
     for n in names:
         if names.count(n) > 1:
             raise InputError(p + "units", f"the name '{n}' is used twice", "make names unique")
-    trains = tuple(_train(u, i, here, p, load_map, atm) for i, u in enumerate(s.units))
+    trains = tuple(_train(u, i, here, p, load_map, atm, s.least_flow_rule)
+                   for i, u in enumerate(s.units))
     header = (None if s.interstage_header is None
               else _interstage_header(s.interstage_header, names, p, p1, p2, atm))
     return Case(s.name, path, gas, atm, ambient, p1, t1, p2, demand, s.objective, econ, trains,
@@ -359,7 +360,8 @@ def _speed_range(driver, maps_and_ratios, rated, smin, smax, key: str) -> tuple[
     return lo, hi
 
 
-def _train(u: UnitSchema, i: int, here: Path, p: str, load_map, atm: float) -> Train:
+def _train(u: UnitSchema, i: int, here: Path, p: str, load_map, atm: float,
+           rule: str = "surge_line") -> Train:
     key = f"{p}units[{i}]"
     if (u.map is None) == (u.sections is None):
         raise InputError(key, "give either 'map' (one section) or 'sections'", None)
@@ -369,12 +371,13 @@ def _train(u: UnitSchema, i: int, here: Path, p: str, load_map, atm: float) -> T
     if u.map is not None:
         sections = (Section(u.name, _map(load_map, here / u.map, key + ".map"), 1.0,
                             _fraction(u.surge_control_offset, key + ".surge_control_offset"),
-                            t_max),)
+                            t_max, least_flow_rule=u.least_flow_rule or rule),)
     else:
         if not u.sections:
             raise InputError(key + ".sections", "a train needs at least one section",
                              "list its sections in flow order, each with a map")
-        sections = tuple(_section(sec, j, here, key, t_max, load_map, atm)
+        sections = tuple(_section(sec, j, here, key, t_max, load_map, atm,
+                                  sec.least_flow_rule or u.least_flow_rule or rule)
                          for j, sec in enumerate(u.sections))
     max_power = (parse_quantity(u.max_power, Kind.POWER, key + ".max_power")
                  if u.max_power is not None else None)
@@ -406,7 +409,7 @@ def _train(u: UnitSchema, i: int, here: Path, p: str, load_map, atm: float) -> T
 
 
 def _section(sec: SectionSchema, j: int, here: Path, key: str, t_max, load_map,
-             atm: float) -> Section:
+             atm: float, rule: str = "surge_line") -> Section:
     k = f"{key}.sections[{j}]"
     cooler = None if sec.cooler is None else _cooler(sec.cooler, k + ".cooler")
     limit = (parse_quantity(sec.max_discharge_temperature, Kind.TEMPERATURE,
@@ -432,7 +435,7 @@ def _section(sec: SectionSchema, j: int, here: Path, key: str, t_max, load_map,
                                  "give it on the unit, or give this section its own driver")
     return Section(sec.name, cmap, ratio, _fraction(sec.surge_control_offset,
                                                     k + ".surge_control_offset"), limit,
-                   cooler, drive)
+                   cooler, drive, rule)
 
 
 def standard_elevation(pressure: float) -> float:

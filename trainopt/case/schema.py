@@ -12,6 +12,8 @@ from typing import Literal
 from pydantic import BaseModel, ConfigDict, Field
 
 Quantity = str | float | int
+LeastFlowRuleName = Literal["surge_line", "speed_line_peak", "larger"]
+"""Values of ``least_flow_rule`` (:class:`trainopt.machines.maps.LeastFlowRule`)."""
 
 
 class _Schema(BaseModel):
@@ -66,6 +68,11 @@ class SectionSchema(_Schema):
     speed_ratio: Quantity = Field(1.0, description="Section speed over shaft speed [-].")
     surge_control_offset: Quantity = Field("10 %", description="Surge control line offset, "
                                            "fraction of surge flow at the same head [-].")
+    least_flow_rule: LeastFlowRuleName | None = Field(
+        None, description="Which line sets the least flow before the surge control offset: "
+        "'surge_line' (the vendor's surge line), 'speed_line_peak' (the peak of the speed "
+        "line, a stability rule for parallel units on flat curves) or 'larger'; default the "
+        "case's (docs/maps.md).")
     max_discharge_temperature: Quantity | None = Field(None, description="Discharge "
                                                        "temperature limit [temperature].")
     cooler: CoolerSchema | None = Field(None, description="Cooler after this section.")
@@ -100,6 +107,11 @@ class UnitSchema(_Schema):
                                          "continuous speed is 105 % of it (API 617 practice).")
     surge_control_offset: Quantity = Field("10 %", description="Surge control line offset "
                                            "of a single-section unit [-].")
+    least_flow_rule: LeastFlowRuleName | None = Field(
+        None, description="Which line sets the least flow before the surge control offset: "
+        "'surge_line' (the vendor's surge line), 'speed_line_peak' (the peak of the speed "
+        "line, a stability rule for parallel units on flat curves) or 'larger'; default the "
+        "case's (docs/maps.md).")
     max_discharge_temperature: Quantity | None = Field(None, description="Discharge "
                                                        "temperature limit [temperature].")
     max_power: Quantity | None = Field(None, description="Extra shaft-power limit [power].")
@@ -150,6 +162,9 @@ class CaseSchema(_Schema):
     discharge: HeaderSchema = Field(..., description="Discharge (delivery) header.")
     demand: Quantity = Field(..., description="Station throughput: mass, actual or standard "
                              "volume flow, e.g. '300 MMSCFD', '75 kg/s'.")
+    least_flow_rule: LeastFlowRuleName = Field(
+        "surge_line", description="Default least-flow rule of every unit: 'surge_line', "
+        "'speed_line_peak' or 'larger' (docs/maps.md); a unit or section may override it.")
     objective: Literal["shaft_power", "energy_input", "cost"] = Field(
         "shaft_power", description="What the optimiser minimises.")
     economics: EconomicsSchema = Field(default_factory=EconomicsSchema,
