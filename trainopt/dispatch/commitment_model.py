@@ -4,8 +4,8 @@ Each period ``t`` of the horizon has its own least-cost curves (a :class:`UnitCu
 available unit, cost in currency per second) and its own demand. This module builds one
 Pyomo model over the horizon:
 
-- per unit and period, ``on`` (binary: running or starting), ``start`` and ``stop``
-  (continuous in [0, 1], integral at every vertex given ``on``);
+- per unit and period, ``on`` (binary: running or starting), ``start`` (binary) and
+  ``stop`` (continuous in [0, 1], integral once ``on`` and ``start`` are);
 - per period, a block holding the single-period dispatch (through-flow, recycle, net flow,
   unit cost) whose run indicator is ``carry = on - starts still in their start-up time``;
   the curves enter through :func:`trainopt.dispatch.piecewise.add_block_incremental`,
@@ -158,9 +158,10 @@ def build_commitment_model(curves: Sequence[Mapping[str, UnitCurve]], demand: Se
         carry[i,t] = u[i,t] - sum_{k=t-SU+1..t} v[i,k]
         trip[k,t]:     sum_{j != k} F_max[j,t] * carry[j,t] >= share * D[t]
 
-    ``u[i,t]`` for ``t <= 0`` comes from the initial state. The start and stop variables
-    need not be binary: for integral ``u`` the balance with the bounds makes every
-    binding vertex integral, and a fractional pair only over-counts starts.
+    ``u[i,t]`` for ``t <= 0`` comes from the initial state. The start variable is binary:
+    with a start-up time, a fractional start-stop pair (``v = w = 1/2`` with ``u``
+    unchanged) would make ``carry`` fractional and let a unit carry flow below its least
+    flow; the stop variable then follows integral from the balance.
     """
     names = list(rules)
     n_periods = len(curves)
@@ -178,7 +179,7 @@ def build_commitment_model(curves: Sequence[Mapping[str, UnitCurve]], demand: Se
     m.UNITS = pyo.Set(initialize=names, ordered=True)
     m.T = pyo.Set(initialize=periods, ordered=True)
     m.on = pyo.Var(m.UNITS, m.T, domain=pyo.Binary, doc="running or starting [-]")
-    m.start = pyo.Var(m.UNITS, m.T, bounds=(0.0, 1.0), doc="start in the period [-]")
+    m.start = pyo.Var(m.UNITS, m.T, domain=pyo.Binary, doc="start in the period [-]")
     m.stop = pyo.Var(m.UNITS, m.T, bounds=(0.0, 1.0), doc="stop in the period [-]")
     m.start_charge = pyo.Var(m.UNITS, m.T, bounds=(0.0, None),
                              doc="start cost [currency / cost_scale]")

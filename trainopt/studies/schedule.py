@@ -214,12 +214,19 @@ def _compare(curves, demand, period, rules, window, share, mip_gap, time_limit, 
              if n in curves[t]}
     keep = solve_commitment(curves, demand, period, free, mip_gap=mip_gap,
                             time_limit=time_limit, window=window, relax=relax, elastic=True,
-                            fixed_on=fixed)
+                            fixed_on=fixed, trip_share=share)
+    secure = share is None or keep.status != "infeasible"
+    if not secure:
+        keep = solve_commitment(curves, demand, period, free, mip_gap=mip_gap,
+                                time_limit=time_limit, window=window, relax=relax,
+                                elastic=True, fixed_on=fixed)
     short = np.flatnonzero(keep.shortfall > 1e-6)
     starts, stops, count = switching_costs(keep.on, rules)
     note = "feasible in every period" if not short.size else (
         f"cannot carry the demand in {short.size} period(s) from {labels[short[0]]}; cost "
         "over the periods it can")
+    if not secure:
+        note += "; does not meet the trip reserve"
     out.append(_row("keep initial commitment", keep.energy_cost.sum(), starts.sum(),
                     stops.sum(), count, short.size, note))
     return out
