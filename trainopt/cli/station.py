@@ -19,12 +19,22 @@ def optimize_command(
                                          help="shaft_power, energy_input or cost."),
     as_json: bool = typer.Option(False, "--json", help="Print JSON instead of a table."),
     out: Path | None = typer.Option(None, "--out", help="Folder for JSON, CSV and map pictures."),
+    trip_reserve: str | None = typer.Option(None, "--trip-reserve", help="With any one running "
+                                            "unit tripped, the others can carry this share of "
+                                            "demand, e.g. '90 %' (steady state only)."),
 ) -> None:
     """Find the least-power split of the demand across the station's units."""
     import trainopt
 
     case = trainopt.load_case(case_file)
-    result = trainopt.optimize(case, demand=demand, offline=offline, objective=objective)
+    result = trainopt.optimize(case, demand=demand, offline=offline, objective=objective,
+                               **({"trip_reserve": trip_reserve} if trip_reserve else {}))
+    security = (result.solver or {}).get("trip_reserve")
+    if security and not as_json:
+        sys.stdout.write(f"trip reserve {security['share']:.0%}: piecewise objective "
+                         f"{security['piecewise_objective_with']:.6g} with it, "
+                         f"{security['piecewise_objective_without']:.6g} without "
+                         "(steady state; the trip transient is not modelled)\n")
     _show(result, as_json, out)
 
 

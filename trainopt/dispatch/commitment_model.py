@@ -197,7 +197,7 @@ def build_commitment_model(curves: Sequence[Mapping[str, UnitCurve]], demand: Se
     for n in names:
         for t in periods:
             curve = curves[t - 1].get(n)
-            if curve is None:
+            if curve is None or curve.status is UnitStatus.OFFLINE:
                 m.on[n, t].fix(0)
             elif curve.status is UnitStatus.MUST_RUN:
                 m.on[n, t].fix(1)

@@ -20,8 +20,8 @@ import pandas as pd
 from trainopt.dispatch.commitment_model import RULE_FAMILIES, CommitmentRules
 from trainopt.dispatch.commitment_solve import diagnose, solve_commitment
 from trainopt.dispatch.solve import solve_dispatch
+from trainopt.dispatch.trip_reserve import trip_share_of
 from trainopt.errors import InputError
-from trainopt.physics.units import Kind, parse_quantity
 from trainopt.station.reduced import evaluate_split
 from trainopt.studies.audit_binning import Binning
 from trainopt.studies.schedule_forecast import Forecast, read_forecast
@@ -35,17 +35,6 @@ from trainopt.studies.schedule_periods import (
 from trainopt.studies.schedule_result import ScheduleResult, period_table, starts_table
 
 __all__ = ["ScheduleResult", "schedule", "switching_costs", "trip_share_of"]
-
-
-def trip_share_of(value) -> float | None:
-    """A trip-reserve share as a fraction [-] from ``0.9``, ``"90 %"`` or None."""
-    if value is None:
-        return None
-    share = parse_quantity(value, Kind.DIMENSIONLESS, "trip_reserve")
-    if not 0.0 < share <= 1.0:
-        raise InputError("trip_reserve", f"{value!r} is not a share of demand from 0 to "
-                         "100 %", "give e.g. '90 %'")
-    return share
 
 
 def schedule(case, forecast, *, columns=None, trip_reserve=None, hours: float | None = None,
