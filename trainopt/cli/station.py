@@ -31,10 +31,16 @@ def optimize_command(
                                **({"trip_reserve": trip_reserve} if trip_reserve else {}))
     security = (result.solver or {}).get("trip_reserve")
     if security and not as_json:
-        sys.stdout.write(f"trip reserve {security['share']:.0%}: piecewise objective "
-                         f"{security['piecewise_objective_with']:.6g} with it, "
-                         f"{security['piecewise_objective_without']:.6g} without "
-                         "(steady state; the trip transient is not modelled)\n")
+        def shown(x):  # the objective in W, or currency/s for cost
+            if result.objective == "cost":
+                return f"{x * 3600:,.2f} {case.economics.currency}/h"
+            return f"{x / 1e3:,.0f} kW"
+
+        sys.stdout.write(f"trip reserve {security['share']:.0%}: {result.objective} "
+                         f"{shown(security['piecewise_objective_with'])} with it, "
+                         f"{shown(security['piecewise_objective_without'])} without (on the "
+                         "piecewise curves; steady state, the trip transient is not "
+                         "modelled)\n")
     _show(result, as_json, out)
 
 
