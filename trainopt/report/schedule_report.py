@@ -40,9 +40,10 @@ def summary_text(result) -> str:
                      f"{result.trip_share:.0%} of demand (steady state)")
     lines.append("")
     for _, row in result.comparison.iterrows():
-        lines.append(f"  {row['way']:<32} {row['total']:>14,.0f} {cur}  starts "
-                     f"{row['start_count']:>3}  schedule saves {row['schedule_saving']:>12,.0f}"
-                     f" {cur}" + (f"  ({row['note']})" if row["note"] else ""))
+        lines.append(f"  {row['way']:<32} {row[f'total_cost_{cur}']:>14,.0f} {cur}  starts "
+                     f"{row['start_count']:>3}  schedule saves "
+                     f"{row[f'schedule_saving_{cur}']:>12,.0f} {cur}"
+                     + (f"  ({row['note']})" if row["note"] else ""))
     s = result.solver
     lines += ["", f"solver: {s['status']}, gap {s['mip_gap']:.2%}, build "
               f"{s['build_seconds']:.1f} s, solve {s['solve_seconds']:.1f} s"]

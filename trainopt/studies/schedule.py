@@ -34,7 +34,7 @@ from trainopt.studies.schedule_periods import (
 )
 from trainopt.studies.schedule_result import ScheduleResult, period_table, starts_table
 
-__all__ = ["ScheduleResult", "schedule", "switching_costs", "trip_share_of"]
+__all__ = ["ScheduleResult", "rule_breaks", "schedule", "switching_costs", "trip_share_of"]
 
 
 def schedule(case, forecast, *, columns=None, trip_reserve=None, hours: float | None = None,
@@ -106,7 +106,7 @@ def schedule(case, forecast, *, columns=None, trip_reserve=None, hours: float | 
         raise InputError("commitment rules", f"no schedule meets every rule; {why}",
                          "relax that rule (case units[].commitment or --trip-reserve)")
     times = frame.index
-    periods = period_table(times, sol, bins)
+    periods = period_table(times, sol, bins, case.economics.currency)
     costs = {"energy": float(sol.energy_cost.sum()), "starts": float(sol.start_cost.sum()),
              "stops": float(sol.stop_cost.sum()), "total": sol.total_cost,
              "start_count": int(sol.start.sum()), "stop_count": int(sol.stop.sum())}
@@ -124,6 +124,11 @@ def schedule(case, forecast, *, columns=None, trip_reserve=None, hours: float | 
                          labels)
     comparison = pd.DataFrame(rows)
     comparison["schedule_saving"] = comparison["total"] - comparison["total"].iloc[0]
+    cur = case.economics.currency
+    comparison = comparison.rename(columns={
+        "energy": f"energy_cost_{cur}", "starts": f"start_cost_{cur}",
+        "stops": f"stop_cost_{cur}", "total": f"total_cost_{cur}",
+        "schedule_saving": f"schedule_saving_{cur}"})
     trip = _trip_check(times, sol, bins, demand, share) if share and check_trips else None
     if trip is not None and not trip["feasible"].all():
         bad = trip[~trip["feasible"]].iloc[0]
@@ -134,7 +139,8 @@ def schedule(case, forecast, *, columns=None, trip_reserve=None, hours: float | 
               "condition_bins": len(bins.stations), "periods": len(times),
               "units": len(sol.units)}
     return ScheduleResult(case.name, case.economics.currency, period, periods,
-                          starts_table(times, sol), costs, comparison, share, solver, notes,
+                          starts_table(times, sol, case.economics.currency), costs,
+                          comparison, share, solver, notes,
                           trip)
 
 
@@ -186,6 +192,32 @@ def switching_costs(on: np.ndarray, rules: dict[str, CommitmentRules]):
     return start_cost, stop_cost, int(np.sum(on & ~before))
 
 
+def rule_breaks(on: np.ndarray, rules: dict[str, CommitmentRules], window: int) -> int:
+    """Count the times a commitment breaks minimum up/down times or starts per day [-].
+
+    ``on`` is periods by units. Counted: runs shorter than the rule (the run cut by the
+    horizon's end excepted, the run before the horizon counted with its periods), and
+    windows of ``window`` periods with too many starts.
+    """
+    count = 0
+    for j, n in enumerate(rules):
+        r = rules[n]
+        states = np.concatenate([[int(r.initial_on)], on[:, j].astype(int)])
+        edges = np.flatnonzero(np.diff(states)) + 1
+        starts_at = np.concatenate([[0], edges])
+        ends = np.concatenate([edges, [states.size]])
+        for k, (a, b) in enumerate(zip(starts_at, ends, strict=True)):
+            if b == states.size:
+                continue
+            length = b - a + (r.initial_periods - 1 if k == 0 else 0)
+            count += length < (r.min_up_effective if states[a] else r.min_down)
+        if r.max_starts is not None:
+            started = np.flatnonzero(np.diff(states) == 1)
+            count += sum(np.sum((started <= t) & (started > t - window)) > r.max_starts
+                         for t in range(on.shape[0]))
+    return int(count)
+
+
 def _compare(curves, demand, period, rules, window, share, mip_gap, time_limit, labels):
     free = {n: CommitmentRules(initial_on=r.initial_on, initial_periods=r.initial_periods)
             for n, r in rules.items()}
@@ -196,9 +228,11 @@ def _compare(curves, demand, period, rules, window, share, mip_gap, time_limit, 
     out = []
     if hourly.status != "infeasible":
         starts, stops, count = switching_costs(hourly.on, rules)
+        broken = rule_breaks(hourly.on, rules, window)
         out.append(_row("hour-by-hour optimum", hourly.energy_cost.sum(), starts.sum(),
                         stops.sum(), count, 0, "each period optimal alone; its starts and "
-                        "stops charged afterwards, run-time rules not applied"))
+                        "stops charged afterwards; run-time rules not applied"
+                        + (f", broken {broken} time(s)" if broken else ", none broken")))
     fixed = {(n, t): int(r.initial_on) for n, r in rules.items() for t in range(len(curves))
              if n in curves[t]}
     keep = solve_commitment(curves, demand, period, free, mip_gap=mip_gap,

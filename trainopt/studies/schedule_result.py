@@ -25,7 +25,7 @@ def _pct(x):
     return 100.0 * np.asarray(x, float)
 
 
-def period_table(times, solution, bins) -> pd.DataFrame:
+def period_table(times, solution, bins, currency: str) -> pd.DataFrame:
     """One row per period and unit.
 
     Parameters
@@ -34,6 +34,8 @@ def period_table(times, solution, bins) -> pd.DataFrame:
         Start of each period.
     solution : CommitmentSolution
     bins : PeriodBins
+    currency : str
+        Label of the cost columns.
 
     Returns
     -------
@@ -41,7 +43,7 @@ def period_table(times, solution, bins) -> pd.DataFrame:
         ``time``, ``unit``, ``running`` (running or starting), ``starting`` (in its
         start-up time), ``started``, ``stopped``, ``net_flow_kg_s``, ``recycle_kg_s``,
         ``through_flow_kg_s``, ``flow_share_pct``, ``speed_rpm``, ``shaft_power_kW``,
-        ``driver_input_kW``, ``energy_cost``, ``start_stop_cost``,
+        ``driver_input_kW``, ``energy_cost_<currency>``, ``start_stop_cost_<currency>``,
         ``control_line_margin_pct``, ``surge_margin_pct``, ``stonewall_margin_pct``,
         ``driver_power_margin_pct``, ``speed_max_margin_pct``.
     """
@@ -89,22 +91,22 @@ def period_table(times, solution, bins) -> pd.DataFrame:
         "started": solution.start.ravel(), "stopped": solution.stop.ravel(),
         "net_flow_kg_s": solution.net_flow.ravel(), "recycle_kg_s": solution.recycle.ravel(),
         "through_flow_kg_s": solution.through_flow.ravel(), "flow_share_pct": share.ravel(),
-        "energy_cost": solution.energy_cost.ravel(),
-        "start_stop_cost": (solution.start_cost + solution.stop_cost).ravel()}
+        f"energy_cost_{currency}": solution.energy_cost.ravel(),
+        f"start_stop_cost_{currency}": (solution.start_cost + solution.stop_cost).ravel()}
     data.update({c: v.ravel() for c, v in cols.items()})
     return pd.DataFrame(data)
 
 
-def starts_table(times, solution) -> pd.DataFrame:
-    """One row per start or stop: ``time``, ``unit``, ``event``, ``cost``."""
+def starts_table(times, solution, currency: str) -> pd.DataFrame:
+    """One row per start or stop: ``time``, ``unit``, ``event``, ``cost_<currency>``."""
     rows = []
     for t, j in zip(*np.nonzero(solution.start | solution.stop), strict=True):
         started = bool(solution.start[t, j])
         rows.append({"time": times[t], "unit": solution.units[j],
                      "event": "start" if started else "stop",
-                     "cost": float(solution.start_cost[t, j] if started
-                                   else solution.stop_cost[t, j])})
-    return pd.DataFrame(rows, columns=["time", "unit", "event", "cost"])
+                     f"cost_{currency}": float(solution.start_cost[t, j] if started
+                                               else solution.stop_cost[t, j])})
+    return pd.DataFrame(rows, columns=["time", "unit", "event", f"cost_{currency}"])
 
 
 @dataclass
@@ -122,11 +124,13 @@ class ScheduleResult:
     starts : pandas.DataFrame
         Starts and stops with their costs (:func:`starts_table`).
     costs : dict
-        ``energy``, ``starts``, ``stops``, ``total`` [currency] of the schedule.
+        ``energy``, ``starts``, ``stops``, ``total`` [currency] of the schedule, and the
+        ``start_count`` and ``stop_count``.
     comparison : pandas.DataFrame
         One row per way of running: ``schedule``, ``hour-by-hour optimum``, ``keep initial
         commitment`` (and ``schedule without trip reserve`` when one is asked), with
-        energy, start and stop costs, total, starts, and the schedule's saving.
+        energy, start and stop costs, total, starts, and the schedule's saving (columns
+        ``..._<currency>``).
     trip_share : float or None
         Trip reserve asked [-].
     solver : dict
