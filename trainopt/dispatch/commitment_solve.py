@@ -166,12 +166,31 @@ def _read(m, units: list[str], n: int) -> CommitmentSolution:
     start, stop = on & ~before, before & ~on
     through = np.where(carry & (through > 1e-6), through, 0.0)
     recycle = np.where(carry & (recycle > 1e-6), recycle, 0.0)
+    recycle = _spread_recycle(through, recycle)
     cost = np.where(carry, cost, 0.0)
     stop_price = np.array([m.stop_price[u] for u in units])
     return CommitmentSolution("optimal", units, on, carry, start, stop, through, recycle,
                               through - recycle, cost, np.where(start, charge, 0.0),
                               stop * stop_price, shortfall,
                               float(pyo.value(m.total_cost)) * scale, math.nan, math.nan)
+
+
+def _spread_recycle(through: np.ndarray, recycle: np.ndarray) -> np.ndarray:
+    """Share the net flow of a period's recycling units in proportion to their through-flows.
+
+    The cost depends on through-flows only, so how the recycling units' net flow is split
+    among them is a tie; the solver's pick is arbitrary. This keeps every through-flow and
+    the period's total net and recycle flows, and gives each recycling unit the same
+    fraction of its through-flow as net flow.
+    """
+    recycle = recycle.copy()
+    for t in range(through.shape[0]):
+        idx = np.flatnonzero(recycle[t] > 0)
+        if idx.size < 2:
+            continue
+        net = float(np.sum(through[t, idx] - recycle[t, idx]))
+        recycle[t, idx] = through[t, idx] * (1.0 - net / float(np.sum(through[t, idx])))
+    return recycle
 
 
 def diagnose(curves: Sequence[Mapping[str, UnitCurve]], demand: Sequence[float],
