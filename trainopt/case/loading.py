@@ -24,6 +24,7 @@ from trainopt.case.schema import (
     SectionSchema,
     UnitSchema,
 )
+from trainopt.case.unit_rules import unit_rules
 from trainopt.errors import InputError
 from trainopt.machines.drivers import GasTurbine, driver_from_dict
 from trainopt.machines.train import (
@@ -103,6 +104,8 @@ class Case:
     throttle : bool
         Whether a single-section unit may run at its minimum speed with a discharge
         throttle where its head lies below its minimum-speed line.
+    unit_rules : dict of str to UnitRules
+        Per unit, its start-stop rules (:mod:`trainopt.case.unit_rules`).
     """
 
     name: str
@@ -120,6 +123,7 @@ class Case:
     extra: dict = field(default_factory=dict, compare=False)
     interstage_header: InterstageHeader | None = None
     throttle: bool = False
+    unit_rules: dict = field(default_factory=dict, compare=False)
 
     def demand_mass_flow(self, demand: Flow | None = None) -> float:
         """Demand as mass flow [kg/s] (standard volumes at their reference conditions)."""
@@ -277,9 +281,11 @@ def _build(s: CaseSchema, path: Path, load_map) -> Case:
                    for i, u in enumerate(s.units))
     header = (None if s.interstage_header is None
               else _interstage_header(s.interstage_header, names, p, p1, p2, atm))
+    rules = {u.name: unit_rules(u.commitment, f"{p}units[{i}].commitment", e.currency)
+             for i, u in enumerate(s.units)}
     return Case(s.name, path, gas, atm, ambient, p1, t1, p2, demand, s.objective, econ, trains,
                 extra={"demand": str(s.demand)}, interstage_header=header,
-                throttle=s.throttle == "allowed")
+                throttle=s.throttle == "allowed", unit_rules=rules)
 
 
 def _interstage_header(h: InterstageHeaderSchema, names: list[str], p: str, p1: float,

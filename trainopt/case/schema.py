@@ -89,6 +89,35 @@ class SectionSchema(_Schema):
                                        "a separately driven section.")
 
 
+class CommitmentSchema(_Schema):
+    """A unit's start-stop rules, read by the commitment schedule (docs/schedule.md)."""
+
+    start_cost: Quantity = Field(0, description="Cost of one start [currency of "
+                                 "economics], wear and purge, e.g. 1500.")
+    start_fuel: Quantity = Field("0 GJ", description="Fuel energy burnt by one start "
+                                 "[energy, LHV], charged at the fuel price, e.g. '40 GJ'.")
+    cold_start_cost: Quantity | None = Field(None, description="Cost of a start after the "
+                                             "unit was stopped longer than cold_after "
+                                             "[currency], instead of start_cost; default "
+                                             "the same as start_cost.")
+    cold_after: Quantity | None = Field(None, description="Stopped time after which a "
+                                        "start is a cold start [time], e.g. '8 h'.")
+    stop_cost: Quantity = Field(0, description="Cost of one stop [currency].")
+    startup_time: Quantity = Field("0 h", description="Time from a start until the unit "
+                                   "carries flow [time]; it carries none meanwhile.")
+    min_up_time: Quantity = Field("0 h", description="Least running time after a start "
+                                  "[time].")
+    min_down_time: Quantity = Field("0 h", description="Least stopped time after a stop "
+                                    "[time].")
+    max_starts_per_day: int | None = Field(None, description="Most starts in any 24 h "
+                                           "[-]; no limit by default.")
+    initial_state: Literal["running", "stopped"] | None = Field(
+        None, description="State when the schedule begins; default running unless the "
+        "unit is offline.")
+    hours_in_state: Quantity = Field("1000 h", description="How long the unit has been "
+                                     "in its initial state [time].")
+
+
 class UnitSchema(_Schema):
     """A compressor unit (one map) or train (several sections) with its driver."""
 
@@ -121,6 +150,8 @@ class UnitSchema(_Schema):
                                                                 "Whether the optimiser may "
                                                                 "start or stop it.")
     group: str | None = Field(None, description="Identical units share a group name.")
+    commitment: CommitmentSchema = Field(default_factory=CommitmentSchema,
+                                         description="Start-stop rules for schedules.")
 
 
 class EconomicsSchema(_Schema):
@@ -184,7 +215,7 @@ def schema_markdown() -> str:
     """The case schema as Markdown tables (key, type, default, description)."""
     lines = []
     for model in (CaseSchema, SiteSchema, GasSchema, HeaderSchema, UnitSchema, SectionSchema,
-                  CoolerSchema, InterstageHeaderSchema, EconomicsSchema):
+                  CoolerSchema, CommitmentSchema, InterstageHeaderSchema, EconomicsSchema):
         lines += [f"### {model.__name__.removesuffix('Schema')}", "", model.__doc__ or "", "",
                   "| key | required | default | description |", "|---|---|---|---|"]
         for name, info in model.model_fields.items():

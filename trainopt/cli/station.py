@@ -29,6 +29,9 @@ def optimize_command(
     force: bool = typer.Option(False, "--force", help=_FORCE),
     verbose: bool = typer.Option(False, "--verbose", help=_VERBOSE),
     explain: bool = typer.Option(False, "--explain", help=_EXPLAIN),
+    trip_reserve: str | None = typer.Option(None, "--trip-reserve", help="With any one running "
+                                            "unit tripped, the others can carry this share of "
+                                            "demand, e.g. '90 %' (steady state only)."),
 ) -> None:
     """Find the least-power split of the demand across the station's units."""
     import trainopt
@@ -36,7 +39,20 @@ def optimize_command(
     case = trainopt.load_case(case_file)
     folder = _check_out(case, out, force)
     result = trainopt.optimize(case, demand=demand, offline=unit_names(offline, "--offline"),
-                               objective=objective)
+                               objective=objective,
+                               **({"trip_reserve": trip_reserve} if trip_reserve else {}))
+    security = (result.solver or {}).get("trip_reserve")
+    if security and not as_json:
+        def shown(x):  # the objective in W, or currency/s for cost
+            if result.objective == "cost":
+                return f"{x * 3600:,.2f} {case.economics.currency}/h"
+            return f"{x / 1e3:,.0f} kW"
+
+        sys.stdout.write(f"trip reserve {security['share']:.0%}: {result.objective} "
+                         f"{shown(security['piecewise_objective_with'])} with it, "
+                         f"{shown(security['piecewise_objective_without'])} without (on the "
+                         "piecewise curves; steady state, the trip transient is not "
+                         "modelled)\n")
     _show(result, as_json, folder, demand, verbose=verbose, explain=explain)
 
 

@@ -32,7 +32,8 @@ def _infeasible_units_text(station: Station) -> str:
 
 
 def optimize(case: Case, demand=None, offline: Iterable[str] = (), objective: str | None = None,
-             baselines: bool = True, throttle: bool | None = None) -> StationResult:
+             baselines: bool = True, throttle: bool | None = None,
+             trip_reserve=None) -> StationResult:
     """Least-objective split of the demand across the station's units.
 
     Parameters
@@ -53,6 +54,11 @@ def optimize(case: Case, demand=None, offline: Iterable[str] = (), objective: st
         pressure ratio puts their head below the minimum-speed line (the case's
         ``throttle`` by default); rows then show the throttled pressure drop and the lost
         power.
+    trip_reserve : float or str, optional
+        With any one running unit tripped, the others can carry at least this share of
+        the demand within their limits (``0.9`` or ``"90 %"``; steady state only, see
+        docs/schedule.md). ``result.solver["trip_reserve"]`` then gives the objective
+        with and without it.
 
     Returns
     -------
@@ -62,6 +68,9 @@ def optimize(case: Case, demand=None, offline: Iterable[str] = (), objective: st
     if throttle is not None and bool(throttle) != case.throttle:
         case = replace(case, throttle=bool(throttle))
     if case.interstage_header is not None:
+        if trip_reserve is not None:
+            raise InputError("trip_reserve", "is not available for a station with a shared "
+                             "interstage header", "leave it out for this case")
         return optimize_header(case, demand, offline, objective, baselines)
     station = Station(case, offline, objective)
     m_demand = requested_demand(case, demand)
@@ -70,6 +79,14 @@ def optimize(case: Case, demand=None, offline: Iterable[str] = (), objective: st
         reason = "no unit is available" + _infeasible_units_text(station)
         return StationResult.infeasible(case, m_demand, reason, station.objective)
     dispatch = solve_dispatch(curves, m_demand)
+    security = None
+    if trip_reserve is not None and dispatch.status != "infeasible":
+        from trainopt.dispatch.trip_reserve import solve_secure_dispatch, trip_share_of
+
+        share = trip_share_of(trip_reserve)
+        plain, dispatch = dispatch, solve_secure_dispatch(curves, m_demand, share)
+        security = {"share": share, "piecewise_objective_without": plain.objective,
+                    "piecewise_objective_with": dispatch.objective}
     if dispatch.status == "infeasible":
         return StationResult.infeasible(case, m_demand, dispatch.reason
                                         + _infeasible_units_text(station), station.objective)
@@ -90,6 +107,8 @@ def optimize(case: Case, demand=None, offline: Iterable[str] = (), objective: st
                      "objective_unit": ("W" if station.objective != "cost" else
                                         f"{case.economics.currency}/s"),
                      "convex": {n: c.convex for n, c in station.curves.items()}}
+    if security is not None:
+        result.solver["trip_reserve"] = security
     if baselines:
         result.baselines = compare_baselines(station, result, m_demand)
         result.baselines_all_units = compare_all_units(station, result, m_demand,
