@@ -2,7 +2,6 @@
 
 from __future__ import annotations
 
-import json
 import sys
 from pathlib import Path
 
@@ -54,6 +53,7 @@ def evaluate_command(
 
 
 def _show(result, as_json: bool, out: Path | None) -> None:
+    from trainopt.report.result_json import result_json
     from trainopt.report.terminal import format_result
 
     if out is not None:
@@ -61,7 +61,7 @@ def _show(result, as_json: bool, out: Path | None) -> None:
 
         write_result_files(result, out)
     if as_json:
-        sys.stdout.write(json.dumps(result.to_dict(), indent=2, default=str) + "\n")
+        sys.stdout.write(result_json(result))
     else:
         sys.stdout.write(format_result(result) + "\n")
     if result.status == "infeasible":

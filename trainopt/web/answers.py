@@ -1,0 +1,134 @@
+"""Answers for the web page and API, from stations kept reduced between requests.
+
+Reducing the station (one least-power curve per unit) is the slow part of an answer; it
+depends only on the conditions and statuses (:class:`~trainopt.web.inputs.Conditions`),
+not on the demand. :class:`Answers` keeps the last few reduced stations, keyed by
+conditions, so a new demand costs one dispatch solve and its true-model check. A change of
+conditions reduces once.
+
+The optimum on a kept station follows :func:`trainopt.station.split.optimize` step by step
+(dispatch, refine on the sampled true model, true-model rows, baselines); the API tests
+check that both give the same JSON. Where the station API gains a reusable reduced station
+of its own, :meth:`Answers.station` and :meth:`Answers.optimize` are the two places to
+switch to it.
+"""
+
+from __future__ import annotations
+
+import threading
+from collections import OrderedDict
+from collections.abc import Mapping
+
+from trainopt.case.loading import Case
+from trainopt.dispatch.solve import solve_dispatch
+from trainopt.station.baselines import compare_baselines
+from trainopt.station.reduced import Station, requested_demand, station_result
+from trainopt.station.result import StationResult
+from trainopt.station.split import _infeasible_units_text, evaluate, optimize
+from trainopt.web.inputs import Conditions, case_at
+
+STATIONS_KEPT = 6
+"""Reduced stations kept (each a few hundred kB of curves) [-]."""
+
+RESULTS_KEPT = 32
+"""Optimum results kept, for the page's map pictures and repeated questions [-]."""
+
+
+class Answers:
+    """Optimum and evaluation for one case at the conditions a request gives.
+
+    Parameters
+    ----------
+    case : Case
+        The case the server was started with; never changed.
+
+    Notes
+    -----
+    One lock serialises the work: the solver and the kept stations are shared between
+    the server's worker threads.
+    """
+
+    def __init__(self, case: Case):
+        self.case = case
+        self._stations: OrderedDict[Conditions, Station] = OrderedDict()
+        self._results: OrderedDict[tuple, StationResult] = OrderedDict()
+        self._lock = threading.RLock()
+        self.reductions = 0
+        """How many times a station was reduced (a cache miss) [-]."""
+
+    def station(self, conditions: Conditions) -> Station:
+        """The station reduced at these conditions: kept, or reduced now and kept."""
+        with self._lock:
+            if conditions in self._stations:
+                self._stations.move_to_end(conditions)
+                return self._stations[conditions]
+            station = Station(case_at(self.case, conditions), (), conditions.objective)
+            self.reductions += 1
+            self._stations[conditions] = station
+            while len(self._stations) > STATIONS_KEPT:
+                self._stations.popitem(last=False)
+            return station
+
+    def optimize(self, conditions: Conditions, demand=None) -> StationResult:
+        """The least-objective split, as :func:`trainopt.optimize` gives it.
+
+        Parameters
+        ----------
+        conditions : Conditions
+        demand : str or float, optional
+            Throughput with its unit, or a mass flow [kg/s]; the case's by default.
+        """
+        with self._lock:
+            case = case_at(self.case, conditions)
+            m_demand = requested_demand(case, demand)
+            key = (conditions, m_demand)
+            if key in self._results:
+                self._results.move_to_end(key)
+                return self._results[key]
+            if case.interstage_header is not None:
+                result = optimize(case, m_demand, (), conditions.objective)
+            else:
+                result = _optimize_on(self.station(conditions), m_demand)
+            self._results[key] = result
+            while len(self._results) > RESULTS_KEPT:
+                self._results.popitem(last=False)
+            return result
+
+    def evaluate(self, conditions: Conditions, split: Mapping[str, object],
+                 demand=None) -> StationResult:
+        """A given split on the true model, as :func:`trainopt.evaluate` gives it.
+
+        The split must add up to the demand (the case's when None), as on the command line.
+        """
+        with self._lock:
+            case = case_at(self.case, conditions)
+            target = demand if demand is not None else case.demand_mass_flow()
+            return evaluate(case, split, demand=target)
+
+
+def _optimize_on(station: Station, m_demand: float) -> StationResult:
+    """:func:`trainopt.station.split.optimize` on a station already reduced [kg/s]."""
+    case = station.case
+    curves = station.unit_curves()
+    if not curves:
+        reason = "no unit is available" + _infeasible_units_text(station)
+        return StationResult.infeasible(case, m_demand, reason, station.objective)
+    dispatch = solve_dispatch(curves, m_demand)
+    if dispatch.status == "infeasible":
+        return StationResult.infeasible(case, m_demand, dispatch.reason
+                                        + _infeasible_units_text(station), station.objective)
+    through = {n: dispatch.through_flow.get(n, 0.0) for n in station.curves}
+    recycle = {n: dispatch.recycle.get(n, 0.0) for n in station.curves}
+    refined = station.refine({n: through[n] for n in through if recycle[n] <= 0.0})
+    through.update(refined)
+    result = station_result(station, through, recycle, m_demand)
+    result.solver = {"piecewise_objective": dispatch.objective,
+                     "formulation": dispatch.formulation,
+                     "build_seconds": dispatch.build_seconds,
+                     "solve_seconds": dispatch.solve_seconds,
+                     "mip_gap": dispatch.mip_gap_achieved,
+                     "breakpoint_error_W": {n: c.error_bound for n, c in station.curves.items()},
+                     "convex": {n: c.convex for n, c in station.curves.items()}}
+    result.baselines = compare_baselines(station, result, m_demand)
+    return result
+
