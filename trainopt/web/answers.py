@@ -6,6 +6,11 @@ not on the demand. :class:`Answers` keeps the last few reduced stations, keyed b
 conditions, so a new demand costs one dispatch solve and its true-model check. A change of
 conditions reduces once.
 
+A kept station also keeps what does not depend on the demand: its dispatch model, built
+once and re-solved by the persistent HiGHS interface for each demand
+(:class:`~trainopt.dispatch.solve.Dispatcher`), and the speed and margin profiles along
+each unit's curve that the load-sharing baselines sample.
+
 The optimum on a kept station follows :func:`trainopt.station.split.optimize` step by step
 (dispatch, refine on the sampled true model, true-model rows, baselines); the API tests
 check that both give the same JSON. Where the station API gains a reusable reduced station
@@ -19,8 +24,10 @@ import threading
 from collections import OrderedDict
 from collections.abc import Mapping
 
+import numpy as np
+
 from trainopt.case.loading import Case
-from trainopt.dispatch.solve import solve_dispatch
+from trainopt.dispatch.solve import Dispatcher
 from trainopt.station.baselines import compare_baselines
 from trainopt.station.reduced import Station, requested_demand, station_result
 from trainopt.station.result import StationResult
@@ -62,7 +69,7 @@ class Answers:
             if conditions in self._stations:
                 self._stations.move_to_end(conditions)
                 return self._stations[conditions]
-            station = Station(case_at(self.case, conditions), (), conditions.objective)
+            station = KeptStation(case_at(self.case, conditions), conditions.objective)
             self.reductions += 1
             self._stations[conditions] = station
             while len(self._stations) > STATIONS_KEPT:
@@ -106,14 +113,42 @@ class Answers:
             return evaluate(case, split, demand=target)
 
 
-def _optimize_on(station: Station, m_demand: float) -> StationResult:
+class KeptStation(Station):
+    """A :class:`~trainopt.station.reduced.Station` kept between requests.
+
+    It keeps its dispatch model (built at the first demand) and the profiles the baselines
+    ask for, which depend only on the conditions. Both return what a fresh station gives.
+    """
+
+    def __init__(self, case: Case, objective: str | None = None):
+        super().__init__(case, (), objective)
+        self._dispatcher: Dispatcher | None = None
+        self._profiles: dict[tuple, tuple[np.ndarray, np.ndarray]] = {}
+
+    def dispatcher(self) -> Dispatcher:
+        """The dispatch model of the feasible units' curves, built once."""
+        if self._dispatcher is None:
+            self._dispatcher = Dispatcher(self.unit_curves())
+        return self._dispatcher
+
+    def profile(self, name: str, through_flow) -> tuple[np.ndarray, np.ndarray]:
+        """:meth:`Station.profile`, remembered per unit and flows (copies returned)."""
+        m = np.asarray(through_flow, float)
+        key = (name, m.tobytes())
+        if key not in self._profiles:
+            self._profiles[key] = super().profile(name, m)
+        speed, margin = self._profiles[key]
+        return speed.copy(), margin.copy()
+
+
+def _optimize_on(station: KeptStation, m_demand: float) -> StationResult:
     """:func:`trainopt.station.split.optimize` on a station already reduced [kg/s]."""
     case = station.case
     curves = station.unit_curves()
     if not curves:
         reason = "no unit is available" + _infeasible_units_text(station)
         return StationResult.infeasible(case, m_demand, reason, station.objective)
-    dispatch = solve_dispatch(curves, m_demand)
+    dispatch = station.dispatcher().solve(m_demand)
     if dispatch.status == "infeasible":
         return StationResult.infeasible(case, m_demand, dispatch.reason
                                         + _infeasible_units_text(station), station.objective)

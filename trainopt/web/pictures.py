@@ -11,8 +11,8 @@ import io
 
 from trainopt.errors import InputError
 
-_OPTIMUM = "#2a7f62"
-_CURRENT = "#7a3fa0"
+_OPTIMUM = "#1d3fb8"
+_CURRENT = "#c0267a"
 
 
 def picture_rows(result) -> dict[str, dict]:
