@@ -38,7 +38,8 @@ STATIONS_KEPT = 6
 """Reduced stations kept (each a few hundred kB of curves) [-]."""
 
 RESULTS_KEPT = 32
-"""Optimum results kept, for the page's map pictures and repeated questions [-]."""
+"""Optimum results kept, and as many evaluated splits, for the page's map pictures and
+repeated questions [-]."""
 
 
 class Answers:
@@ -59,6 +60,7 @@ class Answers:
         self.case = case
         self._stations: OrderedDict[Conditions, Station] = OrderedDict()
         self._results: OrderedDict[tuple, StationResult] = OrderedDict()
+        self._evaluated: OrderedDict[tuple, StationResult] = OrderedDict()
         self._lock = threading.RLock()
         self.reductions = 0
         """How many times a station was reduced (a cache miss) [-]."""
@@ -108,9 +110,17 @@ class Answers:
         The split must add up to the demand (the case's when None), as on the command line.
         """
         with self._lock:
+            key = (conditions, tuple(sorted(split.items())), demand)
+            if key in self._evaluated:
+                self._evaluated.move_to_end(key)
+                return self._evaluated[key]
             case = case_at(self.case, conditions)
             target = demand if demand is not None else case.demand_mass_flow()
-            return evaluate(case, split, demand=target)
+            result = evaluate(case, split, demand=target)
+            self._evaluated[key] = result
+            while len(self._evaluated) > RESULTS_KEPT:
+                self._evaluated.popitem(last=False)
+            return result
 
 
 class KeptStation(Station):
