@@ -22,7 +22,8 @@ DEMO = ROOT / "cases" / "demo" / "station.yaml"
 CHROMIUM = "/usr/bin/chromium"
 CHROMIUM_ARGS = ["--headless", "--no-sandbox", "--disable-gpu",
                  "--disable-background-networking", "--disable-component-update",
-                 "--disable-sync", "--no-first-run"]
+                 "--disable-sync", "--no-first-run", "--no-proxy-server"]
+DIRECT = urllib.request.build_opener(urllib.request.ProxyHandler({}))  # never via a proxy
 START_TIMEOUT = 60.0  # [s] import, case load and first listen on a busy 2-core machine
 WAIT_MS = 60_000  # [ms] longest wait for one page answer or picture
 
@@ -33,27 +34,30 @@ def free_port() -> int:
         return s.getsockname()[1]
 
 
-@pytest.fixture(scope="module")
-def server():
+def start(*options: str, host: str = "127.0.0.1"):
+    """``trainopt serve`` on the demo at a free port; waits (bounded) until it answers."""
     port = free_port()
     env = dict(os.environ, PYTHONPATH=str(ROOT))
     process = subprocess.Popen([sys.executable, "-m", "trainopt", "serve", str(DEMO),
-                                "--port", str(port)], env=env, cwd=ROOT,
-                               stdout=subprocess.PIPE, stderr=subprocess.PIPE)
-    url = f"http://127.0.0.1:{port}"
+                                "--port", str(port), "--host", host, *options], env=env,
+                               cwd=ROOT, stdout=subprocess.PIPE, stderr=subprocess.PIPE)
+    url = f"http://{host}:{port}"
     deadline = time.monotonic() + START_TIMEOUT
     while True:
         try:
-            with urllib.request.urlopen(url + "/openapi.json", timeout=5) as answer:
+            with DIRECT.open(url + "/openapi.json", timeout=5) as answer:
                 assert answer.status == 200
-            break
+            return process, url
         except OSError:
             if process.poll() is not None or time.monotonic() > deadline:
                 process.kill()
-                out, err = process.communicate(timeout=10)
+                _, err = process.communicate(timeout=10)
                 pytest.fail(f"server did not start: {err.decode()[-2000:]}")
             time.sleep(0.2)
-    yield url
+
+
+def stop(process) -> str:
+    """Stop the server (bounded waits) and return what it wrote on stderr."""
     process.terminate()
     try:
         code = process.wait(timeout=20)
@@ -67,6 +71,22 @@ def server():
     # uvicorn shuts down gracefully, then re-raises the signal it caught
     assert code in (0, -signal.SIGTERM), err
     assert "Traceback" not in err
+    return err
+
+
+@pytest.fixture(scope="module")
+def server():
+    process, url = start()
+    yield url
+    stop(process)
+
+
+def test_another_address_needs_the_flag_and_warns():
+    # 127.0.0.2 is on this machine (the loopback range) but is not 127.0.0.1
+    process, _ = start("--allow-other-hosts", host="127.0.0.2")
+    err = stop(process)
+    assert err.startswith("warning: listening on 127.0.0.2: anyone who can reach this "
+                          "address can use the page and API; there is no sign-in\n")
 
 
 def running_units(page) -> list[str]:
