@@ -189,3 +189,14 @@ def test_serve_keeps_to_this_computer_unless_told():
     assert result.stderr.strip() == ("error: --host: 0.0.0.0 would let other computers reach "
                                      "the page; keep the default 127.0.0.1, or add "
                                      "--allow-other-hosts")
+
+
+def test_series_trains_show_one_map_per_section():
+    trains = TestClient(create_app(trainopt.load_case(ROOT / "cases" / "demo" / "trains.yaml")))
+    page = trains.get("/")
+    assert page.status_code == 200
+    assert "/picture/T1-LP.png?" in page.text
+    assert "/picture/T1-HP.png?" in page.text
+    picture = trains.get("/picture/T1-HP.png")
+    assert picture.status_code == 200
+    assert picture.content.startswith(PNG_SIGNATURE)

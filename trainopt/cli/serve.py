@@ -27,9 +27,13 @@ def serve_command(
         raise InputError("--host", f"{host} would let other computers reach the page",
                          "keep the default 127.0.0.1, or add --allow-other-hosts")
     case = trainopt.load_case(case_file)
-    import uvicorn
+    try:
+        import uvicorn
 
-    from trainopt.web import create_app
+        from trainopt.web import create_app
+    except ImportError as exc:
+        raise InputError("serve", f"needs the web extra ({exc.name} is not installed)",
+                         "pip install 'trainopt[web]'") from None
 
     if host not in LOOPBACK:
         typer.echo(f"warning: listening on {host}: anyone who can reach this address can use "
