@@ -8,8 +8,11 @@ and the point of the split being run now when one is given.
 from __future__ import annotations
 
 import io
+import threading
 
 from trainopt.errors import InputError
+
+_DRAWING = threading.Lock()  # matplotlib's shared state (fonts, caches) is not thread-safe
 
 _OPTIMUM = "#1d3fb8"
 _CURRENT = "#c0267a"
@@ -53,6 +56,11 @@ def map_png(case, name: str, optimum: dict, current: dict | None = None) -> byte
     bytes
         PNG image.
     """
+    with _DRAWING:
+        return _draw(case, name, optimum, current)
+
+
+def _draw(case, name: str, optimum: dict, current: dict | None) -> bytes:
     from trainopt.report.map_picture import plot_map
 
     train = case.train(optimum["name"])
