@@ -28,10 +28,15 @@ import numpy as np
 
 from trainopt.case.loading import Case
 from trainopt.dispatch.solve import Dispatcher
-from trainopt.station.baselines import compare_baselines
+from trainopt.station.baselines import compare_all_units, compare_baselines
 from trainopt.station.reduced import Station, requested_demand, station_result
 from trainopt.station.result import StationResult
-from trainopt.station.split import _infeasible_units_text, evaluate, optimize
+from trainopt.station.split import (
+    _infeasible_units_text,
+    evaluate,
+    objective_error_bound,
+    optimize,
+)
 from trainopt.web.inputs import Conditions, case_at
 
 STATIONS_KEPT = 6
@@ -107,16 +112,14 @@ class Answers:
                  demand=None) -> StationResult:
         """A given split on the true model, as :func:`trainopt.evaluate` gives it.
 
-        The split must add up to the demand (the case's when None), as on the command line.
+        When a demand is given, the split must add up to it, as on the command line.
         """
         with self._lock:
             key = (conditions, tuple(sorted(split.items())), demand)
             if key in self._evaluated:
                 self._evaluated.move_to_end(key)
                 return self._evaluated[key]
-            case = case_at(self.case, conditions)
-            target = demand if demand is not None else case.demand_mass_flow()
-            result = evaluate(case, split, demand=target)
+            result = evaluate(case_at(self.case, conditions), split, demand=demand)
             self._evaluated[key] = result
             while len(self._evaluated) > RESULTS_KEPT:
                 self._evaluated.popitem(last=False)
@@ -173,7 +176,13 @@ def _optimize_on(station: KeptStation, m_demand: float) -> StationResult:
                      "solve_seconds": dispatch.solve_seconds,
                      "mip_gap": dispatch.mip_gap_achieved,
                      "breakpoint_error_W": {n: c.error_bound for n, c in station.curves.items()},
+                     "objective_error_bound": {n: objective_error_bound(station, n)
+                                               for n, c in station.curves.items()
+                                               if c.feasible},
+                     "objective_unit": ("W" if station.objective != "cost" else
+                                        f"{case.economics.currency}/s"),
                      "convex": {n: c.convex for n, c in station.curves.items()}}
     result.baselines = compare_baselines(station, result, m_demand)
+    result.baselines_all_units = compare_all_units(station, result, m_demand, result.baselines)
     return result
 

@@ -95,16 +95,24 @@ RULE_WORDS = {"equal_flow": "same flow on every running unit",
 
 
 def savings(result: StationResult) -> list[dict]:
-    """The optimum against each load-sharing rule, as display text."""
+    """The optimum against each load-sharing rule, as display text.
+
+    Each rule twice: on the optimum's running set (``baselines``) and on every available
+    unit (``baselines_all_units``, when the result has it).
+    """
     out = []
+    wide = getattr(result, "baselines_all_units", {}) or {}
     for rule, entry in result.baselines.items():
-        feasible = entry.get("status") == "feasible"
-        out.append({"rule": RULE_WORDS.get(rule, rule), "feasible": feasible,
-                    "reason": entry.get("reason", ""),
-                    "shaft_power": _fmt(entry.get("total_shaft_power_kW"), 0) if feasible
-                    else "–",
-                    "saving_kW": _fmt(entry.get("saving_kW"), 0) if feasible else "–",
-                    "saving_pct": _fmt(entry.get("saving_pct"), 1) if feasible else "–"})
+        row = {"rule": RULE_WORDS.get(rule, rule)}
+        for prefix, item in (("same", entry), ("all", wide.get(rule))):
+            feasible = item is not None and item.get("status") == "feasible"
+            row[f"{prefix}_feasible"] = feasible
+            row[f"{prefix}_given"] = item is not None
+            row[f"{prefix}_reason"] = (item or {}).get("reason", "")
+            row[f"{prefix}_power"] = _fmt(item.get("total_shaft_power_kW"), 0) if feasible else "–"
+            row[f"{prefix}_saving"] = _fmt(item.get("saving_kW"), 0) if feasible else "–"
+            row[f"{prefix}_pct"] = _fmt(item.get("saving_pct"), 1) if feasible else "–"
+        out.append(row)
     return out
 
 
