@@ -379,3 +379,23 @@ def test_mixed_shaft_and_own_drivers_are_refused(tmp_path, trains_yaml, write_de
     with pytest.raises(InputError,
                        match=r"units\[0\]\.driver: the unit has a driver and some sections"):
         trainopt.load_case(write_demo_variant(tmp_path, data))
+
+
+def test_a_map_that_sets_the_shaft_speed_range_is_named(trains_case):
+    # The case folds the maps' tested speeds into the train's range (T1: the HP map's
+    # lowest speed over its ratio, 5195 rpm, is above the motor's 4500 rpm). Before, the
+    # comparison with the folded range always named the driver.
+    from trainopt.machines.train_operation import shaft_speed_range
+
+    t1 = trains_case.train("T1")
+    hp = t1.sections[1]
+    lo, _, low_by, _ = shaft_speed_range(t1)
+    assert lo == pytest.approx(hp.compressor_map.speed_min / hp.speed_ratio, rel=1e-12)
+    assert low_by == "HP"
+    # at 31 -> 50 bar the least flow is where the shaft reaches that speed: the HP map's
+    station = Station(replace(trains_case, discharge_pressure=50e5))
+    curve = station.curves["T1"]
+    assert (curve.low_limit, curve.low_section) == ("speed_min", "HP")
+    row = trainopt.evaluate(station.case, {"T1": curve.min_flow})
+    assert row.units.loc[row.units["section"] == "HP", "least_flow_limit"].iloc[0] \
+        == "minimum speed (HP)"

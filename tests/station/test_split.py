@@ -580,6 +580,65 @@ def test_unknown_objective_is_an_input_error(pair_case):
         trainopt.optimize(pair_case, objective="fuel")
 
 
+# Suction 40-44 bar, discharge 46-85 bar, demand 10-55 MMSCMD on the invented demo: the
+# grid of conditions where low pressure ratios once ended in a root finder's NaN error
+# (44 -> 56 bar at 25 MMSCMD among them); with throttling allowed at the lowest ratios.
+LOW_RATIO_GRID = [(ps, pd, demand, False) for ps in (40, 44) for pd in (46, 50, 56, 66, 85)
+                  for demand in (10, 25, 55)] + [
+    (44, pd, demand, True) for pd in (46, 50) for demand in (10, 25, 55)]
+
+
+def test_every_condition_of_a_low_ratio_sweep_is_an_answer_or_a_reason(demo_case):
+    from trainopt.dispatch.reduction import LIMIT_NAMES
+
+    counts = {"optimal": 0, "infeasible": 0}
+    for ps, pd, demand, throttle in LOW_RATIO_GRID:
+        case = replace(demo_case, suction_pressure=ps * 1e5, discharge_pressure=pd * 1e5)
+        result = trainopt.optimize(case, f"{demand} MMSCMD", throttle=throttle)
+        where = (ps, pd, demand, throttle)
+        counts[result.status] += 1
+        if result.status == "infeasible":
+            assert result.reason, where
+            assert "\n" not in result.reason, where
+            assert ("head" in result.reason or "capacity" in result.reason
+                    or any(name in result.reason for name in LIMIT_NAMES.values())), where
+            continue
+        units = result.units[result.units["running"]]
+        assert abs(units["net_mass_flow_kg_s"].sum() - result.demand_kg_s) \
+            < 1e-6 * result.demand_kg_s, where
+        for column in ("control_line_margin_pct", "stonewall_margin_pct",
+                       "speed_min_margin_pct", "speed_max_margin_pct"):
+            assert (units[column] > -1e-6).all(), (where, column)
+        if not throttle:
+            assert (units["throttle_pressure_drop_kPa"] == 0).all(), where
+        for rule in result.baselines.values():
+            assert rule["status"] in ("feasible", "infeasible"), where
+    # regression values (own output) of this grid: both outcomes occur
+    assert counts["optimal"] >= 12, counts
+    assert counts["infeasible"] >= 12, counts
+
+
+def test_throttling_lets_a_station_run_at_a_very_low_ratio(demo_case):
+    case = replace(demo_case, suction_pressure=44e5, discharge_pressure=48e5)
+    refused = trainopt.optimize(case, "25 MMSCMD", baselines=False)
+    assert refused.status == "infeasible"
+    assert "below the head of the minimum-speed line" in refused.reason
+    result = trainopt.optimize(case, "25 MMSCMD", baselines=False, throttle=True)
+    assert result.status == "optimal"
+    units = result.units[result.units["running"]]
+    assert (units["throttle_pressure_drop_kPa"] > 0).all()
+    assert (units["throttle_lost_power_kW"] > 0).all()
+    assert (units["throttle_lost_power_kW"] < units["shaft_power_kW"]).all()
+    data = result.to_dict()
+    assert data["total_throttle_lost_power_kW"] == pytest.approx(
+        units["throttle_lost_power_kW"].sum(), rel=1e-12)
+    # the speed is the minimum: 0 % margin to it (to the solver's rounding)
+    assert units["speed_min_margin_pct"].abs().max() < 1e-9
+    from trainopt.report.terminal import format_result
+
+    assert "Discharge throttle: " in format_result(result)
+
+
 # --- the piecewise bound of the objective solved -----------------------------------------------
 
 

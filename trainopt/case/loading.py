@@ -100,6 +100,9 @@ class Case:
     economics : Economics
     trains : tuple of Train
     interstage_header : InterstageHeader or None
+    throttle : bool
+        Whether a single-section unit may run at its minimum speed with a discharge
+        throttle where its head lies below its minimum-speed line.
     """
 
     name: str
@@ -116,6 +119,7 @@ class Case:
     trains: tuple[Train, ...]
     extra: dict = field(default_factory=dict, compare=False)
     interstage_header: InterstageHeader | None = None
+    throttle: bool = False
 
     def demand_mass_flow(self, demand: Flow | None = None) -> float:
         """Demand as mass flow [kg/s] (standard volumes at their reference conditions)."""
@@ -273,7 +277,8 @@ def _build(s: CaseSchema, path: Path, load_map) -> Case:
     header = (None if s.interstage_header is None
               else _interstage_header(s.interstage_header, names, p, p1, p2, atm))
     return Case(s.name, path, gas, atm, ambient, p1, t1, p2, demand, s.objective, econ, trains,
-                extra={"demand": str(s.demand)}, interstage_header=header)
+                extra={"demand": str(s.demand)}, interstage_header=header,
+                throttle=s.throttle == "allowed")
 
 
 def _interstage_header(h: InterstageHeaderSchema, names: list[str], p: str, p1: float,

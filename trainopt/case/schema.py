@@ -155,6 +155,11 @@ class CaseSchema(_Schema):
     economics: EconomicsSchema = Field(default_factory=EconomicsSchema,
                                        description="Prices and CO2 factors.")
     units: list[UnitSchema] = Field(..., min_length=1, description="Compressor units/trains.")
+    throttle: Literal["allowed", "not_allowed"] = Field(
+        "not_allowed", description="'allowed': where the pressure ratio is so low that a "
+        "single-section unit's head lies below its minimum-speed line, it may run at minimum "
+        "speed and a throttle valve at its discharge drops the excess pressure (the lost "
+        "power is reported); 'not_allowed' (default): such a unit cannot run at those flows.")
     interstage_header: InterstageHeaderSchema | None = Field(
         None, description="A shared interstage header between two groups of units; "
         "without it every unit runs between the suction and discharge headers.")

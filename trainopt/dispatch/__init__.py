@@ -3,6 +3,9 @@
 - :mod:`~trainopt.dispatch.reduction`: a single-section unit's least-power curve against
   through-flow and its breakpoints (the surge control line, stonewall, speed, power and
   temperature limits are applied here);
+- :mod:`~trainopt.dispatch.unit_operation`: a single-section unit at many through-flows on
+  the true model (speed solved for all at once; the limit that explains an off-map point;
+  the optional discharge throttle);
 - :mod:`~trainopt.dispatch.series_reduction`: the same for trains of several sections;
 - :mod:`~trainopt.dispatch.unit_curve`: a curve in the model's terms;
 - :mod:`~trainopt.dispatch.piecewise`: piecewise-linear forms;

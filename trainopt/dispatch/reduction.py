@@ -13,8 +13,13 @@ from dataclasses import dataclass, field
 
 import numpy as np
 
+from trainopt.dispatch.unit_operation import Operation, operate
+from trainopt.machines.section_operation import boundary_lines
 from trainopt.machines.train import Train
 from trainopt.physics.duty import Duty
+
+__all__ = ["DEFAULT_TOLERANCE", "FINE_POINTS", "LIMIT_NAMES", "LeastPowerCurve", "Operation",
+           "operate", "reduce_unit"]
 
 FINE_POINTS = 241
 """Points on which the true curve is sampled before breakpoints are chosen [-]."""
@@ -32,132 +37,6 @@ LIMIT_NAMES = {
     "discharge_temperature": "discharge-temperature limit",
     "map": "edge of the tested map",
 }
-
-
-@dataclass(frozen=True)
-class Operation:
-    """A single-section unit's operating points (arrays, one entry per through-flow).
-
-    All fields are numpy arrays of the same shape. Flows are through the compressor
-    (net flow plus recycle).
-
-    Attributes
-    ----------
-    mass_flow : [kg/s]
-    volume_flow : actual inlet volume flow [m³/s]
-    speed : shaft speed of the train [1/s]
-    head : head on the map's basis [J/kg]
-    efficiency : efficiency on the map's basis [-]
-    discharge_temperature : [K]
-    gas_power : m (h2 - h1) [W]
-    shaft_power : gas power plus mechanical losses [W]
-    available_power : driver shaft power available at that speed and ambient [W]
-    energy_input : driver energy input (fuel or electricity) [W]
-    surge_flow, control_line_flow : at the same head [m³/s]
-    stonewall_flow : at the same head, or on the same speed line where the stonewall line
-        does not reach that head inside the tested speeds [m³/s]
-    """
-
-    mass_flow: np.ndarray
-    volume_flow: np.ndarray
-    speed: np.ndarray
-    head: np.ndarray
-    efficiency: np.ndarray
-    discharge_temperature: np.ndarray
-    gas_power: np.ndarray
-    shaft_power: np.ndarray
-    available_power: np.ndarray
-    energy_input: np.ndarray
-    surge_flow: np.ndarray
-    control_line_flow: np.ndarray
-    stonewall_flow: np.ndarray
-
-    def violations(self, train: Train) -> dict[str, np.ndarray]:
-        """Boolean arrays, one per limit, True where the limit is broken.
-
-        Where no speed in the tested map gives the required head at a flow, the point is
-        charged to the limit that explains it: right of the stonewall flow at the highest
-        tested speed (stonewall), left of the surge flow at the lowest (surge), else the
-        head is above the map at that flow (maximum speed).
-        """
-        section = train.sections[0]
-        cmap = section.compressor_map
-        off_map = ~np.isfinite(self.speed) | ~np.isfinite(self.efficiency)
-        q = self.volume_flow
-        beyond_stonewall = q > cmap.stonewall_flow_at_speed(cmap.speed_max, warn=False)
-        below_surge = q < cmap.surge_flow_at_speed(cmap.speed_min, warn=False)
-        v = {
-            "map": np.zeros_like(off_map),
-            "control_line": (q < self.control_line_flow * (1 - 1e-9))
-            | (off_map & below_surge),
-            "stonewall": (q > self.stonewall_flow * (1 + 1e-9)) | (off_map & beyond_stonewall),
-            "speed_min": self.speed < train.speed_min * (1 - 1e-9),
-            "speed_max": (self.speed > train.speed_max * (1 + 1e-9))
-            | (off_map & ~beyond_stonewall & ~below_surge),
-            "power": self.shaft_power > self.available_power * (1 + 1e-9),
-        }
-        if section.max_discharge_temperature is not None:
-            v["discharge_temperature"] = (self.discharge_temperature
-                                          > section.max_discharge_temperature + 1e-9)
-        return {k: np.asarray(x, bool) for k, x in v.items()}
-
-
-def operate(train: Train, duty: Duty, mass_flow, ambient_temperature: float) -> Operation:
-    """Operate a single-section unit at through-flows against a duty (true model).
-
-    Parameters
-    ----------
-    train : Train
-        A single-section unit.
-    duty : Duty
-        Gas, suction state and discharge pressure.
-    mass_flow : array_like
-        Through-flows [kg/s].
-    ambient_temperature : float
-        [K], for the driver's available power.
-
-    Returns
-    -------
-    Operation
-        Speed solving head(Q, N) = H_required(eta(Q, N)) by fixed-point iteration (the
-        required head changes by well under 1 % across efficiencies, so 5 passes reach
-        1e-9 relative), and everything that follows from it.
-    """
-    section = train.sections[0]
-    cmap = section.compressor_map
-    m = np.atleast_1d(np.asarray(mass_flow, float))
-    q = m / duty.suction.density
-    eta = np.full_like(q, 0.8)
-    for _ in range(6):
-        head = duty.head(eta)
-        n_section = cmap.speed_for(q, head)
-        new = np.where(np.isfinite(n_section), cmap.efficiency(q, n_section, warn=False), np.nan)
-        # keep the last efficiency found where this pass fell off the map: falling back to
-        # a fixed guess made points just right of the surge line alternate between passes
-        eta = np.where(np.isfinite(new), new, eta)
-    head = duty.head(eta)
-    n_section = cmap.speed_for(q, head)
-    eta = cmap.efficiency(q, n_section, warn=False)
-    speed = n_section / section.speed_ratio
-    work = duty.specific_work(eta)
-    gas_power = m * work
-    shaft = gas_power * (1.0 + train.mechanical_loss)
-    driver = train.driver
-    available = np.asarray(driver.available_shaft_power(speed, ambient_temperature), float)
-    if train.max_power is not None:
-        available = np.minimum(available, train.max_power)
-    energy = np.asarray(driver.energy_input(shaft, speed, ambient_temperature), float)
-    surge = cmap.surge_flow_at_head(head)
-    stonewall = cmap.stonewall_flow_at_head(head)
-    stonewall = np.where(np.isfinite(stonewall), stonewall,
-                         cmap.stonewall_flow_at_speed(n_section, warn=False))
-    return Operation(
-        mass_flow=m, volume_flow=q, speed=speed, head=head, efficiency=eta,
-        discharge_temperature=duty.discharge_temperature(eta), gas_power=gas_power,
-        shaft_power=shaft, available_power=available * np.ones_like(m), energy_input=energy,
-        surge_flow=surge, control_line_flow=surge * (1.0 + section.surge_control_offset),
-        stonewall_flow=stonewall,
-    )
 
 
 @dataclass(frozen=True)
@@ -221,53 +100,81 @@ class LeastPowerCurve:
         return float(self.mass_flow[-1])
 
 
-def _first_violation(viol: dict[str, np.ndarray], index: int) -> str:
-    order = ["map", "control_line", "speed_min", "speed_max", "stonewall", "power",
-             "discharge_temperature"]
-    for key in order:
-        if key in viol and viol[key][index]:
-            return key
-    return "map"
+def _binding(op: Operation, train: Train, viol: dict[str, np.ndarray], index: int,
+             margins: dict[str, np.ndarray] | None = None) -> str:
+    """The limit that binds at a point: of those broken there, the one broken furthest.
+
+    Off the map that is the limit :attr:`Operation.off_map_limit` names; on it, the most
+    negative relative margin (just past an end of the feasible range, the limit crossed
+    first as the flow moves out).
+    """
+    broken = [k for k, v in viol.items() if k != "map" and v[index]]
+    if not broken:
+        return "map"
+    margins = op.margins(train) if margins is None else margins
+    return min(broken, key=lambda k: float(margins[k][index]))
 
 
-def _refine_end(train, duty, ambient, inside: float, outside: float) -> tuple[float, str]:
-    """Narrow the edge between a feasible and an infeasible flow; return the last feasible.
+def _bad(viol: dict[str, np.ndarray]) -> np.ndarray:
+    bad = np.zeros(next(iter(viol.values())).shape, bool)
+    for v in viol.values():
+        bad |= v
+    return bad
 
-    Three vectorised passes of 33 points each shrink the interval by 32^3 (about 3e4), to
+
+def _refine_ends(train, duty, ambient, brackets, throttle: bool) -> list[tuple[float, str]]:
+    """Narrow edges between feasible and infeasible flows; return each last feasible flow.
+
+    ``brackets`` holds ``(inside, outside)`` pairs. Three vectorised passes of 33 points
+    per edge (both edges in one evaluation) shrink each interval by 32^3 (about 3e4), to
     well under 1e-6 of the flow for the map ranges seen in practice.
     """
-    reason = "map"
+    brackets = [list(b) for b in brackets]
+    reasons = ["map"] * len(brackets)
     for _ in range(3):
-        m = np.linspace(inside, outside, 33)
-        op = operate(train, duty, m, ambient)
+        m = np.concatenate([np.linspace(a, b, 33) for a, b in brackets])
+        op = operate(train, duty, m, ambient, throttle)
         viol = op.violations(train)
-        bad = np.zeros(len(m), bool)
-        for v in viol.values():
-            bad |= v
-        first_bad = int(np.argmax(bad[1:])) + 1 if bad[1:].any() else len(m) - 1
-        reason = _first_violation(viol, first_bad)
-        inside, outside = m[first_bad - 1], m[first_bad]
-    return float(inside), reason
+        bad = _bad(viol)
+        margins = op.margins(train)
+        for j in range(len(brackets)):
+            part = slice(33 * j, 33 * (j + 1))
+            b = bad[part]
+            first_bad = int(np.argmax(b[1:])) + 1 if b[1:].any() else 32
+            reasons[j] = _binding(op, train, viol, 33 * j + first_bad, margins)
+            brackets[j] = [m[part][first_bad - 1], m[part][first_bad]]
+    return [(float(a), r) for (a, _), r in zip(brackets, reasons, strict=True)]
 
 
 def _choose_breakpoints(x: np.ndarray, y: np.ndarray, tolerance: float) -> np.ndarray:
-    """Greedy breakpoints on a sampled curve: indices so that chords stay within tolerance."""
-    chosen, start = [0], 0
-    while start < len(x) - 1:
-        end = start + 1
-        while end + 1 < len(x):
-            trial = end + 1
-            chord = np.interp(x[start:trial + 1], [x[start], x[trial]], [y[start], y[trial]])
-            if np.max(np.abs(chord - y[start:trial + 1])) > tolerance:
-                break
-            end = trial
+    """Greedy breakpoints on a sampled curve: indices so that chords stay within tolerance.
+
+    From each breakpoint the chord is extended one sample at a time until it first departs
+    from a sample it spans by more than ``tolerance``; the last chord that held ends the
+    segment. The chords from one start are all tried at once (numpy), with the same
+    arithmetic as :func:`numpy.interp`.
+    """
+    chosen, start, n = [0], 0, len(x)
+    while start < n - 1:
+        xs, ys = x[start:], y[start:]
+        dx, dy = xs - xs[0], ys - ys[0]
+        # error[j, i]: chord from the start to sample j, at sample i (i <= j)
+        with np.errstate(divide="ignore", invalid="ignore"):
+            chord = ys[0] + dy[:, None] * (dx[None, :] / dx[:, None])
+        error = np.abs(chord - ys[None, :])
+        error[np.triu_indices(len(xs), 1)] = 0.0
+        error[:, 0] = 0.0
+        worst = error.max(axis=1)
+        worst[:2] = 0.0  # the first chord (to the next sample) is always kept
+        failing = np.flatnonzero(worst > tolerance)
+        end = start + (failing[0] - 1 if failing.size else len(xs) - 1)
         chosen.append(end)
         start = end
     return np.array(chosen)
 
 
 def reduce_unit(train: Train, duty: Duty, ambient_temperature: float,
-                tolerance: float = DEFAULT_TOLERANCE) -> LeastPowerCurve:
+                tolerance: float = DEFAULT_TOLERANCE, throttle: bool = False) -> LeastPowerCurve:
     """Least shaft power against through-flow for a single-section unit at today's duty.
 
     Parameters
@@ -280,6 +187,9 @@ def reduce_unit(train: Train, duty: Duty, ambient_temperature: float,
         [K].
     tolerance : float, optional
         Breakpoint tolerance as a fraction of the largest shaft power [-].
+    throttle : bool, optional
+        Let the unit run at its minimum speed with a discharge throttle where the duty's
+        head lies below its minimum-speed line (see :func:`operate`).
 
     Returns
     -------
@@ -298,86 +208,129 @@ def reduce_unit(train: Train, duty: Duty, ambient_temperature: float,
     cmap = section.compressor_map
     head0 = float(duty.head(0.8))
     rho = duty.suction.density
-    q_lo = float(cmap.surge_flow_at_head(head0))
-    q_hi = float(cmap.stonewall_flow_at_head(head0))
-    if not (np.isfinite(q_lo) and np.isfinite(q_hi)):
-        q_lo, q_hi = _flow_span(cmap)
+    lines = boundary_lines(cmap)
+    q_lo = float(lines.surge_flow(head0))
+    q_hi = float(lines.stonewall_flow(head0))
+    if throttle or not (np.isfinite(q_lo) and np.isfinite(q_hi)):
+        span = _flow_span(cmap)
+        q_lo = min(q_lo, span[0]) if np.isfinite(q_lo) else span[0]
+        q_hi = max(q_hi, span[1]) if np.isfinite(q_hi) else span[1]
     q = np.linspace(0.9 * q_lo, 1.05 * q_hi, FINE_POINTS)
-    op = operate(train, duty, q * rho, ambient_temperature)
+    op = operate(train, duty, q * rho, ambient_temperature, throttle)
     viol = op.violations(train)
-    bad = np.zeros(len(q), bool)
-    for v in viol.values():
-        bad |= v
-    ok = np.flatnonzero(~bad)
+    ok = np.flatnonzero(~_bad(viol))
     if ok.size == 0:
-        return _infeasible(train, duty, op, viol, ambient_temperature)
+        return _infeasible(train, duty, op, viol, ambient_temperature, throttle)
     runs = np.split(ok, np.flatnonzero(np.diff(ok) > 1) + 1)
     run = max(runs, key=len)
     i0, i1 = run[0], run[-1]
     m = op.mass_flow
-    low, low_reason = (m[i0], _first_violation(viol, i0 - 1)) if i0 == 0 else _refine_end(
-        train, duty, ambient_temperature, m[i0], m[i0 - 1])
-    high, high_reason = (m[i1], "map") if i1 == len(q) - 1 else _refine_end(
-        train, duty, ambient_temperature, m[i1], m[i1 + 1])
-    fine = np.unique(np.concatenate([[low], m[(m > low) & (m < high)], [high]]))
-    fop = operate(train, duty, fine, ambient_temperature)
-    scale = float(np.max(fop.shaft_power))
-    idx = _choose_breakpoints(fine, fop.shaft_power, tolerance * scale)
-    x, y = fine[idx], fop.shaft_power[idx]
-    error = float(np.max(np.abs(np.interp(fine, x, y) - fop.shaft_power)))
+    brackets, ends = [], [(m[i0], _binding(op, train, viol, i0 - 1) if i0 > 0 else "map"),
+                          (m[i1], "map")]
+    if i0 > 0:
+        brackets.append((m[i0], m[i0 - 1]))
+    if i1 < len(q) - 1:
+        brackets.append((m[i1], m[i1 + 1]))
+    refined = _refine_ends(train, duty, ambient_temperature, brackets, throttle)
+    if i0 > 0:
+        ends[0] = refined.pop(0)
+    if i1 < len(q) - 1:
+        ends[1] = refined.pop(0)
+    (low, low_reason), (high, high_reason) = ends
+    inner = (m > low) & (m < high)
+    edge = operate(train, duty, np.array([low, high]), ambient_temperature, throttle)
+    fine = np.concatenate([[low], m[inner], [high]])
+    shaft = np.concatenate([edge.shaft_power[:1], op.shaft_power[inner], edge.shaft_power[1:]])
+    energy = np.concatenate([edge.energy_input[:1], op.energy_input[inner],
+                             edge.energy_input[1:]])
+    fine, keep = np.unique(fine, return_index=True)
+    shaft, energy = shaft[keep], energy[keep]
+    scale = float(np.max(shaft))
+    idx = _choose_breakpoints(fine, shaft, tolerance * scale)
+    x, y = fine[idx], shaft[idx]
+    error = float(np.max(np.abs(np.interp(fine, x, y) - shaft)))
     slopes = np.diff(y) / np.diff(x)
     convex = bool(np.all(np.diff(slopes) >= -1e-9 * scale))
-    return LeastPowerCurve(train.name, x, y, fop.energy_input[idx], low_reason, high_reason,
-                           convex, error, sample_flow=fine, sample_shaft_power=fop.shaft_power,
-                           sample_energy_input=fop.energy_input)
+    return LeastPowerCurve(train.name, x, y, energy[idx], low_reason, high_reason,
+                           convex, error, sample_flow=fine, sample_shaft_power=shaft,
+                           sample_energy_input=energy)
 
 
 def _flow_span(cmap) -> tuple[float, float]:
     speeds = np.linspace(cmap.speed_min, cmap.speed_max, 5)
-    lo = np.nanmin(cmap.surge_flow_at_speed(speeds))
-    hi = np.nanmax(cmap.stonewall_flow_at_speed(speeds))
+    lo = np.nanmin(cmap.surge_flow_at_speed(speeds, warn=False))
+    hi = np.nanmax(cmap.stonewall_flow_at_speed(speeds, warn=False))
     return float(lo), float(hi)
 
 
-def _infeasible(train: Train, duty: Duty, op: Operation, viol, ambient: float
-                ) -> LeastPowerCurve:
+def _infeasible(train: Train, duty: Duty, op: Operation, viol, ambient: float,
+                throttle: bool = False) -> LeastPowerCurve:
     """A curve marking the unit unable to meet the duty, with the reason in words."""
     head = float(duty.head(0.8))
-    cmap = train.sections[0].compressor_map
-    top = float(np.nanmax(cmap.head(cmap.surge_flow_at_speed(cmap.speed_max), cmap.speed_max)))
+    section = train.sections[0]
+    cmap = section.compressor_map
+    top = float(np.nanmax(cmap.head(cmap.surge_flow_at_speed(cmap.speed_max, warn=False),
+                                    cmap.speed_max, warn=False)))
+    margins = op.margins(train)
+    binding = [_binding(op, train, viol, i, margins) for i in range(op.mass_flow.size)]
+    counts = {k: binding.count(k) for k in dict.fromkeys(binding)}
+    worst = max(counts, key=counts.get)
     if head > top:
         reason = (f"the required head {head / 1e3:.1f} kJ/kg is above the map's highest head "
                   f"{top / 1e3:.1f} kJ/kg at maximum speed")
+        worst = "speed_max"
+    elif worst in ("speed_min", "stonewall") and _below_minimum_speed(train, duty):
+        floor = max(train.speed_min * section.speed_ratio, cmap.speed_min)
+        low_head = float(cmap.head(cmap.stonewall_flow_at_speed(floor, warn=False), floor,
+                                   warn=False))
+        reason = (f"the required head {head / 1e3:.1f} kJ/kg is below the head of the "
+                  f"minimum-speed line ({floor / section.speed_ratio * 60:.0f} rpm) at every "
+                  f"flow (its least, at its stonewall flow, is {low_head / 1e3:.1f} kJ/kg)")
+        worst = "speed_min"
+        if not throttle:
+            reason += "; a discharge throttle would let it run (case option throttle: allowed)"
     else:
-        counts = {k: int(v.sum()) for k, v in viol.items()}
-        worst = max(counts, key=counts.get)
         reason = f"no through-flow meets every limit; the {LIMIT_NAMES[worst]} binds first"
         if worst == "power":
-            others = np.zeros(len(op.mass_flow), bool)
-            for key, v in viol.items():
-                if key != "power":
-                    others |= v
-            gap = np.where(others, np.nan, op.shaft_power - op.available_power)
-            short = np.nanmin(gap) if np.isfinite(gap).any() else np.nanmin(
-                op.shaft_power - op.available_power)
-            # The grid's first point right of the surge control line lies a little past it:
-            # evaluate the control-line flow itself, where the power need is least.
-            m_scl = np.nanmin(op.control_line_flow) * duty.suction.density
-            edge = operate(train, duty, m_scl, ambient)
-            edge_viol = edge.violations(train)
-            if not any(v[0] for k, v in edge_viol.items() if k not in ("power", "control_line")):
-                short = min(short, float(edge.shaft_power[0] - edge.available_power[0]))
-            if short > 0:
-                reason += f" (short of power by at least {short / 1e3:.0f} kW)"
-            else:
-                power_ok = ~viol["power"]
-                rest = {k: int((v & power_ok).sum()) for k, v in viol.items() if k != "power"}
-                other = max(rest, key=rest.get)
-                reason = (f"no through-flow meets every limit; where the driver has the power, "
-                          f"the {LIMIT_NAMES[other]} is broken")
+            reason = _power_reason(train, duty, op, viol, ambient, throttle, reason)
     empty = np.array([])
-    return LeastPowerCurve(train.name, empty, empty, empty, worst_or(viol), "", True, 0.0,
+    return LeastPowerCurve(train.name, empty, empty, empty, worst, "", True, 0.0,
                            False, reason)
+
+
+def _below_minimum_speed(train: Train, duty: Duty) -> bool:
+    """Whether the duty's head lies below the minimum-speed line at its stonewall point."""
+    section = train.sections[0]
+    cmap = section.compressor_map
+    floor = max(train.speed_min * section.speed_ratio, cmap.speed_min)
+    q_sw = cmap.stonewall_flow_at_speed(floor, warn=False)
+    eta = cmap.efficiency(q_sw, floor, warn=False)
+    return bool(cmap.head(q_sw, floor, warn=False) > duty.head(eta))
+
+
+def _power_reason(train, duty, op, viol, ambient, throttle, reason) -> str:
+    """Say by how much the driver is short of power, or what breaks where it is not."""
+    others = np.zeros(len(op.mass_flow), bool)
+    for key, v in viol.items():
+        if key != "power":
+            others |= v
+    gap = np.where(others, np.nan, op.shaft_power - op.available_power)
+    short = np.nanmin(gap) if np.isfinite(gap).any() else np.inf
+    # The grid's first point right of the surge control line lies a little past it:
+    # evaluate the control-line flow itself, where the power need is least.
+    scl = op.control_line_flow[np.isfinite(op.control_line_flow) & ~others]
+    if scl.size:
+        edge = operate(train, duty, scl.min() * duty.suction.density, ambient, throttle)
+        edge_viol = edge.violations(train)
+        if not any(v[0] for k, v in edge_viol.items() if k not in ("power", "control_line")):
+            short = min(short, float(edge.shaft_power[0] - edge.available_power[0]))
+    if np.isfinite(short) and short > 0:
+        return reason + f" (short of power by at least {short / 1e3:.0f} kW)"
+    power_ok = ~viol["power"]
+    rest = {k: int((v & power_ok).sum()) for k, v in viol.items() if k not in ("power", "map")}
+    other = max(rest, key=rest.get)
+    return (f"no through-flow meets every limit; where the driver has the power, "
+            f"the {LIMIT_NAMES[other]} is broken")
 
 
 def worst_or(viol) -> str:

@@ -383,6 +383,8 @@ def section_rows(station, train: Train, through_flow: float, recycle: float, row
             "discharge_temperature_margin_K": (
                 s.max_discharge_temperature - exact.discharge.temperature
                 if s.max_discharge_temperature is not None else math.nan),
+            "throttle_pressure_drop_kPa": 0.0,
+            "throttle_lost_power_kW": 0.0,
             "least_flow_limit": _limit_text(curve.low_section, curve.low_limit) if curve
             else "",
             "largest_flow_limit": _limit_text(curve.high_section, curve.high_limit) if curve

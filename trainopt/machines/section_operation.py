@@ -373,9 +373,11 @@ def section_margins(section: Section, points: SectionPoints, speed_min, speed_ma
         ``speed_min``: ``N / N_min - 1``; ``speed_max``: ``1 - N / N_max``;
         ``discharge_temperature``: ``1 - T2 / T_max`` when the section has a limit.
         Where no tested speed meets the duty, the point is charged as in
-        :mod:`trainopt.dispatch.reduction`: to the stonewall right of the stonewall flow at the
-        highest tested speed, to the control line left of the surge flow at the lowest,
-        else to the speed limit on the side that fell short.
+        :mod:`trainopt.dispatch.unit_operation`: to the stonewall right of the stonewall
+        flow at the highest tested speed (at the lowest where the head needed lies below
+        its line), to the control line left of the surge control line at the lowest tested
+        speed (at the highest where the head needed lies above its line), else to the
+        speed limit on the side that fell short.
     """
     cmap = section.compressor_map
     q, n = points.volume_flow, points.speed
@@ -391,12 +393,19 @@ def section_margins(section: Section, points: SectionPoints, speed_min, speed_ma
                 1.0 - points.discharge_temperature / section.max_discharge_temperature)
     off = ~np.isfinite(n)
     if np.any(off):
-        beyond = q > cmap.stonewall_flow_at_speed(cmap.speed_max, warn=False)
-        below = q < cmap.surge_flow_at_speed(cmap.speed_min, warn=False) * (
+        side = points.speed_side
+        # right of the stonewall of every tested speed, or of the lowest where the head
+        # needed is below the lowest speed line (a lower speed moves the point further
+        # past its stonewall); left of the surge control line of the lowest speed, or of
+        # the highest where the head needed is above the highest speed line
+        beyond = q > cmap.stonewall_flow_at_speed(
+            np.where(side < 0, cmap.speed_min, cmap.speed_max), warn=False)
+        below = q < cmap.surge_flow_at_speed(
+            np.where(side > 0, cmap.speed_max, cmap.speed_min), warn=False) * (
             1.0 + section.surge_control_offset)
         charge = {"stonewall": off & beyond, "control_line": off & ~beyond & below,
-                  "speed_min": off & ~beyond & ~below & (points.speed_side < 0),
-                  "speed_max": off & ~beyond & ~below & (points.speed_side >= 0)}
+                  "speed_min": off & ~beyond & ~below & (side < 0),
+                  "speed_max": off & ~beyond & ~below & (side >= 0)}
         for key in margins:
             value = np.where(off, np.inf, margins[key])
             margins[key] = np.where(charge.get(key, False), -1.0, value)

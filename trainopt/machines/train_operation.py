@@ -193,12 +193,19 @@ class TrainPoints:
         return self.worst_margin >= 0.0
 
     def first_violation(self, index) -> tuple[str, str]:
-        """``(where, limit)`` of the first broken limit at a point, in a fixed order."""
+        """``(where, limit)`` of the limit that binds at a point: the one broken furthest.
+
+        Just past an end of a feasible range that is the limit crossed first; off the map
+        the limit charged there (margin -1). Ties keep the order of
+        ``_VIOLATION_ORDER``.
+        """
+        best, worst = ("", "map"), 0.0
         for limit in _VIOLATION_ORDER:
             for (where, key), value in self.margins.items():
-                if key == limit and np.broadcast_to(value, self.mass_flow.shape)[index] < 0:
-                    return where, key
-        return "", "map"
+                v = float(np.broadcast_to(value, self.mass_flow.shape)[index])
+                if key == limit and v < worst:
+                    best, worst = (where, key), v
+        return best
 
     def closest_limit(self, index) -> tuple[str, str, float]:
         """``(where, limit, margin)`` of the limit nearest to binding at a point."""
@@ -267,10 +274,12 @@ def shaft_speed_range(train: Train) -> tuple[float, float, str, str]:
     lo, hi, low_by, high_by = train.speed_min, train.speed_max, "driver", "driver"
     for s in train.sections:
         m = s.compressor_map
-        if m.speed_min / s.speed_ratio > lo * (1 + 1e-12):
-            lo, low_by = m.speed_min / s.speed_ratio, s.name
-        if m.speed_max / s.speed_ratio < hi * (1 - 1e-12):
-            hi, high_by = m.speed_max / s.speed_ratio, s.name
+        # The case folds the maps' tested speeds into the train's range, so a map that
+        # sets an end equals it: name the section then (to rounding), not the driver.
+        if m.speed_min / s.speed_ratio >= lo * (1 - 1e-9):
+            lo, low_by = max(lo, m.speed_min / s.speed_ratio), s.name
+        if m.speed_max / s.speed_ratio <= hi * (1 + 1e-9):
+            hi, high_by = min(hi, m.speed_max / s.speed_ratio), s.name
     return lo, hi, low_by, high_by
 
 

@@ -185,6 +185,11 @@ def format_result(result: StationResult, *, demand_text: str | None = None,
               f"{d['total_driver_input_kW']:.0f} kW, recycle {d['total_recycle_kg_s']:.2f} kg/s, "
               f"CO2 {d['total_co2_t_h']:.2f} t/h, cost {d['total_cost_per_h']:.0f} "
               f"{d['currency']}/h"]
+    throttled = [u for u in d["units"] if (u.get("throttle_pressure_drop_kPa") or 0) > 0]
+    if throttled:
+        lines.append("Discharge throttle: " + "; ".join(
+            f"{u['name']} drops {u['throttle_pressure_drop_kPa']:.0f} kPa, losing "
+            f"{u['throttle_lost_power_kW']:.0f} kW" for u in throttled))
     solver = d.get("solver")
     if verbose and solver and "piecewise_objective" in solver:
         lines.append(f"Piecewise objective {solver['piecewise_objective']:.6g}; formulation "

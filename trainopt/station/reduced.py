@@ -10,6 +10,7 @@ from __future__ import annotations
 
 from collections.abc import Iterable, Mapping
 from dataclasses import replace
+from functools import lru_cache
 
 import numpy as np
 from scipy.interpolate import CubicSpline
@@ -58,15 +59,20 @@ class Station:
         Units to take offline on top of the case's own status.
     objective : str, optional
         ``shaft_power``, ``energy_input`` or ``cost``; the case's by default.
+    throttle : bool, optional
+        Let single-section units run at minimum speed with a discharge throttle where
+        their head lies below the minimum-speed line; the case's ``throttle`` by default.
     """
 
-    def __init__(self, case: Case, offline: Iterable[str] = (), objective: str | None = None):
+    def __init__(self, case: Case, offline: Iterable[str] = (), objective: str | None = None,
+                 throttle: bool | None = None):
         if case.interstage_header is not None:
             raise InputError("interstage_header", "a station with a shared interstage header "
                              "has two groups of units, not one", "use trainopt.optimize (it "
                              "searches the header pressure) or trainopt.station.header")
         self.case = case
         self.objective = chosen_objective(case, objective)
+        self.throttle = bool(case.throttle if throttle is None else throttle)
         offline = list(offline)
         for name in offline:
             case.train(name)
@@ -84,7 +90,8 @@ class Station:
                     self.curves[train.name] = replace(reduced[key], name=train.name)
                     continue
                 self.curves[train.name] = reduce_unit(train, self.duty(train),
-                                                      case.ambient_temperature)
+                                                      case.ambient_temperature,
+                                                      throttle=self.throttle)
                 if key is not None:
                     reduced[key] = self.curves[train.name]
             else:
@@ -98,8 +105,8 @@ class Station:
         basis = HeadBasis(getattr(basis, "value", basis))
         if basis not in self._duties:
             c = self.case
-            self._duties[basis] = Duty.build(c.gas, c.suction_pressure, c.suction_temperature,
-                                             c.discharge_pressure, basis)
+            self._duties[basis] = _duty(c.gas, c.suction_pressure, c.suction_temperature,
+                                        c.discharge_pressure, basis)
         return self._duties[basis]
 
     def price(self, train: Train) -> tuple[float, float]:
@@ -136,7 +143,8 @@ class Station:
         train = self.case.train(name)
         m = np.asarray(through_flow, float)
         if train.is_single_section:
-            op = operate(train, self.duty(train), m, self.case.ambient_temperature)
+            op = operate(train, self.duty(train), m, self.case.ambient_temperature,
+                         self.throttle)
             return (op.speed / train.speed_max,
                     (op.volume_flow - op.control_line_flow) / op.control_line_flow)
         from trainopt.dispatch.series_reduction import train_profile
@@ -201,6 +209,18 @@ class Station:
                         zip(names, res.x, lo, hi, strict=True)})
             return out
         return through
+
+
+@lru_cache(maxsize=32)
+def _duty(gas, suction_pressure: float, suction_temperature: float, discharge_pressure: float,
+          basis: HeadBasis) -> Duty:
+    """:meth:`Duty.build`, kept for the last conditions seen.
+
+    A duty depends on the gas and the header conditions only (not on the units, the demand
+    or the objective), and tabulating it takes 18 CoolProp compressions (about 0.1 s), so a
+    station asked for many demands at the same conditions builds it once.
+    """
+    return Duty.build(gas, suction_pressure, suction_temperature, discharge_pressure, basis)
 
 
 def _twin_key(train: Train) -> tuple | None:

@@ -61,12 +61,13 @@ def unit_rows(station, through: dict[str, float], recycle: dict[str, float]) -> 
             rows.extend(section_rows(station, train, m, recycle.get(name, 0.0), row))
             continue
         duty = station.duty(train)
-        op = operate(train, duty, m, case.ambient_temperature)
+        op = operate(train, duty, m, case.ambient_temperature, station.throttle)
         section = train.sections[0]
         eta = float(op.efficiency[0])
         basis = duty.basis
+        p_unit = float(op.discharge_pressure[0])  # above the header's when throttled
         c = compress(case.gas, case.suction_pressure, case.suction_temperature,
-                     case.discharge_pressure, eta, basis)
+                     p_unit, eta, basis)
         shaft = float(op.shaft_power[0])
         available = float(op.available_power[0])
         energy = float(op.energy_input[0])
@@ -105,6 +106,8 @@ def unit_rows(station, through: dict[str, float], recycle: dict[str, float]) -> 
             "discharge_temperature_margin_K": (
                 section.max_discharge_temperature - c.discharge.temperature
                 if section.max_discharge_temperature is not None else math.nan),
+            "throttle_pressure_drop_kPa": float(op.throttle_pressure_drop[0]) / 1e3,
+            "throttle_lost_power_kW": float(op.lost_power[0]) / 1e3,
             "least_flow_limit": LIMIT_NAMES.get(curve.low_limit, "") if curve else "",
             "largest_flow_limit": LIMIT_NAMES.get(curve.high_limit, "") if curve else "",
         })
@@ -205,6 +208,7 @@ class StationResult:
             "total_shaft_power_kW": self._sum("shaft_power_kW"),
             "total_driver_input_kW": self._sum("driver_input_kW"),
             "total_recycle_kg_s": self._sum("recycle_kg_s"),
+            "total_throttle_lost_power_kW": self._sum("throttle_lost_power_kW"),
             "total_co2_t_h": self._sum("co2_t_h"),
             "total_cost_per_h": self._sum("cost_per_h"),
             "currency": c.economics.currency,

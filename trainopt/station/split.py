@@ -11,6 +11,7 @@ same way.
 from __future__ import annotations
 
 from collections.abc import Iterable, Mapping
+from dataclasses import replace
 
 import numpy as np
 
@@ -31,7 +32,7 @@ def _infeasible_units_text(station: Station) -> str:
 
 
 def optimize(case: Case, demand=None, offline: Iterable[str] = (), objective: str | None = None,
-             baselines: bool = True) -> StationResult:
+             baselines: bool = True, throttle: bool | None = None) -> StationResult:
     """Least-objective split of the demand across the station's units.
 
     Parameters
@@ -47,12 +48,19 @@ def optimize(case: Case, demand=None, offline: Iterable[str] = (), objective: st
         ``shaft_power`` (default of cases), ``energy_input`` or ``cost``.
     baselines : bool, optional
         Also evaluate equal-flow, equal-speed and equal-margin sharing.
+    throttle : bool, optional
+        Let single-section units run at minimum speed with a discharge throttle where the
+        pressure ratio puts their head below the minimum-speed line (the case's
+        ``throttle`` by default); rows then show the throttled pressure drop and the lost
+        power.
 
     Returns
     -------
     StationResult
         Status ``"optimal"`` with the per-unit table, or ``"infeasible"`` with the reason.
     """
+    if throttle is not None and bool(throttle) != case.throttle:
+        case = replace(case, throttle=bool(throttle))
     if case.interstage_header is not None:
         return optimize_header(case, demand, offline, objective, baselines)
     station = Station(case, offline, objective)
