@@ -2,7 +2,6 @@
 
 from __future__ import annotations
 
-import json
 import sys
 from pathlib import Path
 
@@ -97,10 +96,11 @@ def _check_out(case, out: Path | None, force: bool):
 def _show(result, as_json: bool, folder, demand: str | None, *, verbose: bool = False,
           explain: bool = False) -> None:
     """Print the result first, then write its files: a write failure loses no answer."""
+    from trainopt.report.result_json import result_json
     from trainopt.report.terminal import format_result
 
     if as_json:
-        sys.stdout.write(json.dumps(result.to_dict(), indent=2, default=str) + "\n")
+        sys.stdout.write(result_json(result))
     else:
         sys.stdout.write(format_result(result, demand_text=demand, verbose=verbose,
                                        explain=explain) + "\n")
