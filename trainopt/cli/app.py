@@ -9,7 +9,7 @@ from __future__ import annotations
 
 import typer
 
-from trainopt.cli import gas, maps, station, studies
+from trainopt.cli import calibrate, gas, maps, station, studies
 
 app = typer.Typer(add_completion=False, no_args_is_help=True,
                   help="Least-power load sharing and margins for centrifugal compressor stations. "
@@ -22,5 +22,5 @@ def _root() -> None:
     """Least-power load sharing and margins for centrifugal compressor stations."""
 
 
-for group in (station, maps, gas, studies):
+for group in (station, maps, gas, studies, calibrate):
     group.register(app)

@@ -66,6 +66,8 @@ class CalibrationResult:
         The case with its as-new maps.
     notes : dict of str to list of str
     bands : SteadyBands
+    running_hours : pandas.DataFrame
+        ``unit``, ``month``, ``running_hours`` (rows with flow and speed, steady or not).
     """
 
     factors: pd.DataFrame
@@ -76,6 +78,7 @@ class CalibrationResult:
     as_new_case: object
     notes: dict = field(default_factory=dict)
     bands: SteadyBands = field(default_factory=SteadyBands)
+    running_hours: pd.DataFrame = field(default_factory=pd.DataFrame)
 
     def summary(self) -> str:
         """A short text summary (factors with their standard errors)."""
@@ -226,11 +229,43 @@ def calibrate(case, history, columns=None, *, since=None, until=None,
                           stacklevel=2)
     return CalibrationResult(
         factors, pd.DataFrame(trend), pd.concat(fitted, ignore_index=True), excluded,
-        calibrated_case(new_case, degradations), new_case, pts.notes, bands)
+        calibrated_case(new_case, degradations), new_case, pts.notes, bands,
+        _running_hours(history))
+
+
+def _running_hours(history) -> pd.DataFrame:
+    """Hours each unit ran (flow and speed above zero) per calendar month (UTC)."""
+    frame = history.frame
+    month = frame.index.tz_convert("UTC").strftime("%Y-%m")
+    out = []
+    for u in history.units:
+        speed = frame.get(f"{u}.speed", pd.Series(np.nan, index=frame.index))
+        running = (frame[f"{u}.flow"] > 0) & (speed.fillna(0) > 0)
+        counts = running.groupby(month).sum() * history.interval / 3600.0
+        out += [{"unit": u, "month": m, "running_hours": float(h)} for m, h in counts.items()]
+    return pd.DataFrame(out, columns=["unit", "month", "running_hours"])
+
+
+def split_groups(case, degradations: dict[str, Degradation]) -> set[str]:
+    """Groups whose units were calibrated to different factors (no longer identical)."""
+    split = set()
+    for train in case.trains:
+        if train.group is None:
+            continue
+        members = {degradations.get(t.name, Degradation()) for t in case.trains
+                   if t.group == train.group}
+        if len(members) > 1:
+            split.add(train.group)
+    return split
 
 
 def calibrated_case(case, degradations: dict[str, Degradation]):
-    """The case with each named unit's maps degraded (the others as they are)."""
+    """The case with each named unit's maps degraded (the others as they are).
+
+    Units of a ``group`` (identical units) calibrated to different factors leave their
+    group: they are no longer identical.
+    """
+    split = split_groups(case, degradations)
     trains = []
     for train in case.trains:
         d = degradations.get(train.name)
@@ -238,6 +273,8 @@ def calibrated_case(case, degradations: dict[str, Degradation]):
             sections = tuple(dataclasses.replace(s, compressor_map=degraded_map(
                 s.compressor_map, d)) for s in train.sections)
             train = dataclasses.replace(train, sections=sections)
+        if train.group in split:
+            train = dataclasses.replace(train, group=None)
         trains.append(train)
     return dataclasses.replace(case, trains=tuple(trains))
 
@@ -246,7 +283,10 @@ def _relative(value: str, source: Path, target: Path) -> str:
     path = Path(value)
     if path.is_absolute():
         return value
-    return Path(os.path.relpath((source / path).resolve(), target.resolve())).as_posix()
+    full, there = (source / path).resolve(), target.resolve()
+    if os.path.commonpath([full, there]) == os.path.sep:  # nothing shared: keep it absolute
+        return full.as_posix()
+    return Path(os.path.relpath(full, there)).as_posix()
 
 
 def calibrated_case_text(result: CalibrationResult, out_dir: str | Path) -> str:
@@ -267,7 +307,10 @@ def calibrated_case_text(result: CalibrationResult, out_dir: str | Path) -> str:
     if isinstance(data.get("gas"), dict) and data["gas"].get("file"):
         data["gas"]["file"] = _relative(data["gas"]["file"], here, there)
     by_unit = {r.unit: r for r in result.factors.itertuples()}
+    calibrated = {t.name: t for t in result.case.trains}
     for unit in data["units"]:
+        if unit.get("group") is not None and calibrated[unit["name"]].group is None:
+            unit.pop("group")  # its group's units were calibrated apart
         if unit.get("map"):
             unit["map"] = _relative(unit["map"], here, there)
         for section in unit.get("sections") or []:
