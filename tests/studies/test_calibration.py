@@ -54,6 +54,9 @@ def test_factors_come_back_within_their_standard_errors(long_history, long_resul
         assert f.loc[unit, "points"] > 150
         assert f.loc[unit, "flow_factor"] == 1.0
         assert np.isnan(f.loc[unit, "flow_factor_se"])
+    # the synthetic shaft-power meter reads m (h2 - h1) (1 + 1 % mechanical loss), exactly
+    # the demo's loss; the rest is the flow and temperature noise, averaged (0.3 %)
+    np.testing.assert_allclose(f["measured_over_gas_power"], 1.01, rtol=3e-3)
     # every history row of a unit is either used or counted under a reason
     rows = len(read_history(*long_history, long_result.as_new_case).frame)
     assert (f["points"] + f["excluded_rows"] == rows).all()

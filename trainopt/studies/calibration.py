@@ -52,7 +52,9 @@ class CalibrationResult:
         One row per unit: ``unit``, ``head_factor``, ``head_factor_se``,
         ``efficiency_factor``, ``efficiency_factor_se``, ``flow_factor``, ``flow_factor_se``
         (standard errors [-], NaN when held fixed), ``points`` (steady points used),
-        ``excluded_rows``, ``period_start``, ``period_end``, ``note``.
+        ``excluded_rows``, ``period_start``, ``period_end``, ``note``,
+        ``measured_over_gas_power`` (median recorded power over ``m (h2 - h1)``, the
+        power cross-check).
     trend : pandas.DataFrame
         The same per unit and calendar month (``month``), for months with enough points.
     points : pandas.DataFrame
@@ -201,7 +203,8 @@ def calibrate(case, history, columns=None, *, since=None, until=None,
             continue
         cmap = train.sections[0].compressor_map
         fit = fit_factors(cmap, mine, fit_flow=fit_flow)
-        rows.append(_row(u, fit, n_out, mine["time"], ""))
+        rows.append(_row(u, fit, n_out, mine["time"], "")
+                    | {"measured_over_gas_power": _power_check(mine)})
         degradations[u] = Degradation(fit.head_factor, fit.efficiency_factor, fit.flow_factor)
         h, e = predict(cmap, mine, fit.head_factor, fit.efficiency_factor, fit.flow_factor)
         fitted.append(mine.assign(fitted_head=h, fitted_efficiency=e))
@@ -231,6 +234,17 @@ def calibrate(case, history, columns=None, *, since=None, until=None,
         factors, pd.DataFrame(trend), pd.concat(fitted, ignore_index=True), excluded,
         calibrated_case(new_case, degradations), new_case, pts.notes, bands,
         _running_hours(history))
+
+
+def _power_check(points: pd.DataFrame) -> float:
+    """Median of recorded power over gas power ``m (h2 - h1)`` [-]; NaN if none recorded.
+
+    A cross-check only (the efficiency comes from the temperature rise): about
+    1 + mechanical loss for a shaft-power meter, more for a driver's input.
+    """
+    ratio = points["measured_power"] / points["gas_power"]
+    ratio = ratio[np.isfinite(ratio)]
+    return float(ratio.median()) if len(ratio) else np.nan
 
 
 def _running_hours(history) -> pd.DataFrame:
