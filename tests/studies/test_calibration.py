@@ -166,3 +166,23 @@ def test_steady_bands_are_reported(long_result):
     assert long_result.bands == SteadyBands()
     assert "steady over 3 h" in long_result.summary()
     assert isinstance(long_result.trend, pd.DataFrame)
+
+
+def test_open_recycle_valve_without_recycle_flow_is_left_out_and_counted(short_frame,
+                                                                           tmp_path):
+    frame, mapping = short_frame
+    mapping = yaml.safe_load(yaml.safe_dump(mapping))
+    del mapping["units"]["A"]["recycle"]
+    mapping["units"]["A"]["recycle_valve"] = {"column": "A_valve_pct", "unit": "%",
+                                              "rated_kv": 800}
+    open_rows = np.zeros(len(frame))
+    open_rows[30:50] = 12.0  # 20 hours with the valve 12 % open
+    frame = frame.assign(A_valve_pct=open_rows)
+    with warnings.catch_warnings():
+        warnings.simplefilter("ignore", CalibrationWarning)
+        result = calibrate(DEMO_STATION, *write(tmp_path, frame, mapping), min_points=5)
+    ex = result.excluded.set_index(["unit", "reason"])["rows"]
+    # the first reason of each row counts: rows 30-49 are running and fully recorded, so
+    # every one of the 20 is counted as an open valve
+    assert ex.loc[("A", "recycle valve open, recycle flow unknown")] == 20
+    assert ("B", "recycle valve open, recycle flow unknown") not in ex.index
