@@ -14,7 +14,7 @@ For each station size and a spread of demands the script prints:
   default policy (no recycle whenever some commitment avoids it); and a multistart SLSQP
   (random commitments and starting splits), the general-purpose method the MIP replaces;
 - the speed-up of the MIP solve against that multistart NLP;
-- whether each target of the issue is met;
+- whether each design target is met;
 - the three formulations side by side at 8 and 16 units.
 
 Run: ``python benchmarks/dispatch_scaling.py`` (about two minutes on two cores).

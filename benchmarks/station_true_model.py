@@ -477,7 +477,7 @@ speed-up: NLP time over trainopt's; solve = the HiGHS re-solve alone; answer = s
 
 
 def print_targets(results: list[dict]) -> None:
-    print("\nTargets of issue 4 (medians over the demands):")
+    print("\nDesign targets (medians over the demands):")
     for o in results:
         limit = TARGET_MEDIAN_SECONDS.get(o["units"])
         if limit is not None:

@@ -298,3 +298,34 @@ def test_every_refusal_names_a_key_of_the_schema():
 
 if __name__ == "__main__":
     render_case_docs()
+
+
+# --- a gas turbine takes the site's elevation unless it states its own -----------------------
+
+ISA_1500_M_KPA = 84.556  # ISO 2533 standard atmosphere table, 1500 m: 845.56 hPa (from memory)
+
+
+def test_gas_turbine_takes_the_sites_elevation(tmp_path, write_demo_variant):
+    # Power of a gas turbine scales with ambient pressure (docs/drivers.md, common practice).
+    demo = yaml.safe_load(DEMO.read_text())
+    demo["site"] = {"elevation": "1500 m", "ambient_temperature": "24 degC"}
+    turbine = next(u for u in demo["units"] if u["driver"]["kind"] == "gas_turbine")
+    del turbine["driver"]["site_elevation"]
+    (tmp_path / "site").mkdir()
+    high = trainopt.load_case(write_demo_variant(tmp_path / "site", demo)).train("C").driver
+    assert_allclose(high.site_elevation, 1500.0, atol=1e-3)
+    turbine["driver"]["site_elevation"] = "0 m"  # the driver's own figure wins
+    (tmp_path / "own").mkdir()
+    sea = trainopt.load_case(write_demo_variant(tmp_path / "own", demo)).train("C").driver
+    assert sea.site_elevation == 0.0
+    speed, ambient = 6500 / 60, 288.15
+    assert_allclose(high.available_shaft_power(speed, ambient)
+                    / sea.available_shaft_power(speed, ambient),
+                    ISA_1500_M_KPA / 101.325, rtol=1e-4)
+    # a site given by its pressure: the elevation of that pressure in the same atmosphere
+    del turbine["driver"]["site_elevation"]
+    demo["site"] = {"atmospheric_pressure": f"{ISA_1500_M_KPA} kPa",
+                    "ambient_temperature": "24 degC"}
+    (tmp_path / "pressure").mkdir()
+    by_pressure = trainopt.load_case(write_demo_variant(tmp_path / "pressure", demo))
+    assert_allclose(by_pressure.train("C").driver.site_elevation, 1500.0, atol=1.0)

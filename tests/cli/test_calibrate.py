@@ -16,9 +16,9 @@ from typer.testing import CliRunner
 
 from tests.conftest import DEMO_STATION
 from trainopt.case.loading import load_case
+from trainopt.caution import CAUTION
 from trainopt.cli.app import app
 from trainopt.machines.degradation import Degradation
-from trainopt.station.result import CAUTION
 from trainopt.station.split import optimize
 from trainopt.studies.calibration_synthetic import synthetic_history
 
@@ -60,11 +60,11 @@ def test_writes_case_report_and_tables(written):
     text = (out / "calibration.html").read_text()
     assert text.count("data:image/png;base64,") >= 9  # trend + a map and residuals per unit
     assert html.escape(CAUTION) in text
-    payback = pd.read_csv(out / "wear_payback.csv")
+    payback = pd.read_csv(out / "wear_payback.csv", comment="#")
     # a wash restoring several % of efficiency on a multi-MW unit pays back within months
     assert (payback["wash_payback_months"] > 0).all()
     assert (payback["wash_payback_months"] < 24).all()
-    wear = pd.read_csv(out / "wear_monthly.csv")
+    wear = pd.read_csv(out / "wear_monthly.csv", comment="#")
     assert (wear["extra_shaft_kW"] > 0).all()
 
 

@@ -7,6 +7,7 @@ import pytest
 from numpy.testing import assert_allclose
 from typer.testing import CliRunner
 
+from trainopt.caution import CAUTION
 from trainopt.cli.app import app
 from trainopt.physics.compression import compress
 from trainopt.physics.gas import CompositionWarning
@@ -74,12 +75,28 @@ def test_json_has_null_where_there_is_no_dew_point(gulf_coast_file):
     assert json.loads(result.stdout)["dew_temperature_C"] is None
 
 
+def test_json_carries_the_shared_caution(gulf_coast_file):
+    data = json.loads(run(gulf_coast_file, "-p", "45 bar", "-t", "25 degC", "--json").stdout)
+    assert data["caution"] == CAUTION
+
+
+@pytest.mark.parametrize("command", ["gas", "optimize", "evaluate", "fit-map", "envelope",
+                                     "audit"])
+def test_every_command_help_carries_the_caution(command):
+    result = runner.invoke(app, [command, "--help"], terminal_width=400)
+    assert result.exit_code == 0, result.output
+    # rich wraps the epilog to the terminal's width: compare word by word
+    assert " ".join(CAUTION.split()) in " ".join(result.stdout.split())
+
+
 def test_table_on_the_bundled_demo_gas():
     result = run(DEMO_GAS, "-p", "45 bar", "-t", "25 degC", "--to", "75 bar", "--eos", "pr")
     assert result.exit_code == 0, result.output
     lines = result.stdout.splitlines()
     assert lines[0] == f"Gas from {DEMO_GAS}"
-    rows = dict(line.split(None, 1) for line in lines[2:])
+    blank = lines.index("")
+    rows = dict(line.split(None, 1) for line in lines[2:blank])
+    assert lines[blank + 1:] == [CAUTION]  # the shared caution closes the table
     assert rows["equation_of_state"] == "PENG_ROBINSON"
     assert rows["pressure_ratio"] == "1.66667"  # 75 / 45, printed to 6 digits
     assert float(rows["polytropic_head_kJ_kg"]) > 0.0

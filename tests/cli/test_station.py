@@ -92,7 +92,8 @@ def test_out_folder_holds_real_files(demo_run):
     result, out = demo_run
     data = strict_json(result.stdout)
     assert strict_json((out / "result.json").read_text()) == data
-    table = pd.read_csv(out / "units.csv")
+    table = pd.read_csv(out / "units.csv", comment="#")
+    assert (out / "units.csv").read_text().splitlines()[-1] == f"# {CAUTION}"
     assert list(table["name"]) == ["A", "B", "C", "D"]
     assert list(table.columns) == list(data["units"][0])
     assert_allclose(table["shaft_power_kW"].sum(), data["total_shaft_power_kW"], rtol=1e-12)
@@ -174,12 +175,26 @@ def test_negative_demand(tmp_path):
         "demand: -5 kg/s is negative; give a throughput of zero or more")
 
 
-def test_split_that_does_not_add_up_to_the_case_demand(tmp_path):
-    # the pair case asks for 150 kg/s (tests/data/station_small/gaslib135_pair.yaml)
+def test_split_that_does_not_add_up_to_the_stated_demand(tmp_path):
     assert refused("evaluate", PAIR, "--split", "P1=100 kg/s", "--split", "P2=20 kg/s",
-                   out=tmp_path / "o") == (
+                   "--demand", "150 kg/s", out=tmp_path / "o") == (
         "split: the shares add up to 120.000 kg/s but the demand is 150.000 kg/s; make the "
         "shares add up to the demand, or state the demand they meet (--demand)")
+
+
+def test_readme_evaluate_example_runs_as_written():
+    # README: trainopt evaluate cases/demo/station.yaml --split A="150 kg/s" --split
+    # C="230 kg/s". The demo's case demand is 44 MMSCMD (383.96 kg/s); without --demand the
+    # split's own sum, 380 kg/s, is the demand. B and D are stopped, not offline.
+    readme = (ROOT / "README.md").read_text("utf-8")
+    assert 'trainopt evaluate CASE --split A="150 kg/s" --split C="230 kg/s" ' in readme
+    result = run("evaluate", DEMO, "--split", "A=150 kg/s", "--split", "C=230 kg/s", "--json")
+    assert result.exit_code == 0, result.output
+    data = strict_json(result.stdout)
+    assert data["status"] == "evaluated"
+    assert_allclose(data["demand_kg_s"], 380.0, rtol=1e-15)
+    stopped = {u["name"]: u["status"] for u in data["units"] if not u["running"]}
+    assert stopped == {"B": "available", "D": "available"}
 
 
 def test_demand_without_unit(tmp_path):
@@ -250,3 +265,98 @@ def test_out_is_a_file(tmp_path):
     assert result.stderr.splitlines() == [f"error: --out: {target} is a file, not a folder; "
                                           "give a folder path"]
     assert target.read_text() == "keep me"
+
+
+# --- writing results: checked before the solve, complete or not at all -----------------------
+
+
+def test_out_below_a_file_is_refused_before_the_solve(tmp_path):
+    blocker = tmp_path / "taken"
+    blocker.write_text("keep me")
+    message = refused("optimize", PAIR, out=blocker / "result")
+    assert message == f"--out: {blocker} is a file, not a folder; give a folder path"
+    assert blocker.read_text() == "keep me"
+
+
+def test_out_that_cannot_be_written_is_refused_before_the_solve():
+    # /proc/self is a folder no one may create files in (Linux proc(5)), root included.
+    message = refused("optimize", PAIR, out=Path("/proc/self/trainopt_result"))
+    assert message == "--out: cannot write in /proc/self; choose a folder you may write to"
+
+
+def test_existing_files_are_kept_unless_forced(tmp_path):
+    out = tmp_path / "out"
+    out.mkdir()
+    (out / "result.json").write_text("yesterday's result")
+    (out / "notes.txt").write_text("mine")
+    result = run("optimize", PAIR, "--out", out)
+    assert result.exit_code == 2
+    assert result.stdout == ""  # refused before any solve
+    message = result.stderr.strip()
+    assert message == (f"error: --out: {out / 'result.json'} exists already; pass --force "
+                       "to replace it or choose another folder")
+    assert (out / "result.json").read_text() == "yesterday's result"
+    forced = run("optimize", PAIR, "--json", "--out", out, "--force")
+    assert forced.exit_code == 0, forced.output
+    assert strict_json((out / "result.json").read_text()) == strict_json(forced.stdout)
+    assert (out / "notes.txt").read_text() == "mine"  # files not written are not touched
+    assert not [p for p in out.iterdir() if p.name.startswith(".")]  # no temporary folder
+
+
+def test_unit_names_become_safe_file_names(tmp_path):
+    def change(data):
+        data["units"][0]["name"] = "P/1"
+        data["units"][1]["name"] = "P_1"  # the same safe name as "P/1": must not replace it
+    case = pair_variant(tmp_path, change)
+    out = tmp_path / "out"
+    result = run("optimize", case, "--demand", "200 kg/s", "--json", "--out", out)
+    assert result.exit_code == 0, result.output
+    running = [u["name"] for u in strict_json(result.stdout)["units"] if u["running"]]
+    assert running == ["P/1", "P_1"]  # 200 kg/s needs both units of the pair
+    assert sorted(p.name for p in out.glob("*.png")) == ["map_P_1-2.png", "map_P_1.png"]
+    assert [p for p in out.rglob("*") if p.is_dir()] == []
+
+
+def test_a_write_failure_keeps_the_answer_on_screen_and_leaves_no_files(tmp_path, monkeypatch):
+    import trainopt.report.map_picture as pictures
+
+    def disk_full(*args, **kwargs):
+        raise OSError(28, "No space left on device")
+
+    monkeypatch.setattr(pictures, "plot_map", disk_full)
+    out = tmp_path / "out"
+    result = run("optimize", PAIR, "--out", out)
+    assert result.exit_code == 2
+    assert "Station shaft power" in result.stdout  # the answer was printed first
+    assert result.stderr.splitlines() == [
+        f"error: --out: cannot write in {out}: No space left on device; check the folder "
+        "and free space"]
+    assert not out.exists()  # nothing half-written
+    assert [p.name for p in tmp_path.iterdir()] == []  # no temporary folder left either
+
+
+def test_fit_map_keeps_existing_files_unless_forced(tmp_path):
+    demo_map = ROOT / "cases" / "demo" / "maps" / "motor_unit.yaml"
+    first = run("fit-map", demo_map, "--out", tmp_path)
+    assert first.exit_code == 0, first.output
+    assert first.stdout.rstrip().endswith(CAUTION)
+    report = tmp_path / "motor_unit_fit.txt"
+    report.write_text("my notes")
+    again = run("fit-map", demo_map, "--out", tmp_path)
+    assert again.exit_code == 2
+    assert again.stderr.startswith(f"error: --out: {tmp_path / 'motor_unit_fit.txt'} "
+                                   "exists already")
+    assert report.read_text() == "my notes"
+    assert run("fit-map", demo_map, "--out", tmp_path, "--force").exit_code == 0
+    assert CAUTION in report.read_text()
+
+
+# --- options that contradict or list units ----------------------------------------------------
+
+
+def test_offline_takes_a_comma_separated_list(tmp_path):
+    result = run("optimize", PAIR, "--offline", "P1,P2")
+    assert result.exit_code == 1
+    assert "INFEASIBLE: no unit is available" in result.stdout
+    assert refused("optimize", PAIR, "--offline", ",", out=tmp_path / "o") == (
+        "--offline: ',' names no unit; write e.g. 'A,C'")

@@ -62,7 +62,7 @@ def test_boundary_splines_match_the_maps_root_search():
     cmap = load_map(DEMO / "maps" / "motor_unit.yaml")
     lines = boundary_lines(cmap)
     heads = np.linspace(46e3, 80e3, 9)  # inside the surge heads of the tested speeds
-    # 1e-6: cubic splines through 97 points of a smooth line (measured 4e-9).
+    # 1e-6: cubic splines through 97 points of a smooth line (regression value (own output) 4e-9).
     assert_allclose(lines.surge_flow(heads), cmap.surge_flow_at_head(heads), rtol=1e-6)
     heads = np.linspace(27e3, 52e3, 9)
     assert_allclose(lines.stonewall_flow(heads), cmap.stonewall_flow_at_head(heads), rtol=1e-6)
@@ -75,7 +75,7 @@ def test_required_head_polynomial_matches_the_table(trains_station):
     eta = np.linspace(0.45, 1.0, 23)
     direct = table.compress(31e5, 293.15, 47e5, eta, HeadBasis.POLYTROPIC).head
     # 2e-7: degree-5 interpolation in 1/eta of a head that changes by 4 % over the range
-    # (measured 5e-8).
+    # (regression value (own output) 5e-8).
     assert_allclose(head_polynomial(coefficients, eta), direct, rtol=2e-7)
 
 
@@ -307,7 +307,7 @@ def test_two_trains_split_agrees_with_brute_force(trains_case, trains_station):
     total = cost(t1, c1, net) + cost(t2, c2, demand - net)
     brute = float(np.min(total))
     # The optimiser's bound: breakpoint error of both curves plus the MIP gap (1e-4), and
-    # the brute force's own grid; 0.2 % is the target and far above both.
+    # the brute force's own grid; 0.2 % is the design target and far above both.
     assert_allclose(result.total_shaft_power, brute, rtol=2e-3)
     assert result.total_shaft_power <= brute * (1 + 1e-4)
 

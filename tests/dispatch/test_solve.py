@@ -383,7 +383,7 @@ def highs_scheduler_of_another_user(monkeypatch):
 
 def test_dispatch_after_highs_ran_with_its_default_threads(highs_scheduler_of_another_user):
     # HiGHS fixes its thread count at the first solve in a process and then refuses
-    # another (measured while planning this project). The dispatch asks for one thread;
+    # another (observed while building this project). The dispatch asks for one thread;
     # after another HiGHS user ran first it must still answer, and remember the refusal.
     result = solve_dispatch([line("A", 10.0, 20.0, 1e5, 1e4)], 15.0)
     assert result.status == "optimal"

@@ -10,7 +10,6 @@ import numpy as np
 from numpy.testing import assert_allclose
 
 from trainopt.machines.maps import (
-    DEFAULT_CONTROL_LINE_OFFSET,
     control_line_margin,
     load_map,
     speed_margins,
@@ -25,8 +24,14 @@ DEMO = Path(__file__).parents[2] / "cases" / "demo" / "maps"
 SURGE_FLOW, SURGE_HEAD, SPEED = 0.3778500000000021, 71.88729110000055e3, 11999 / 60
 
 
-def test_default_control_line_offset_is_ten_percent():
-    assert DEFAULT_CONTROL_LINE_OFFSET == 0.10  # common practice
+def test_default_control_line_lies_ten_percent_right_of_surge():
+    # Common practice: the surge control line at 10 % more flow than surge at the same head.
+    # Checked on the published GasLib-135 map's surge point, not on the constant itself.
+    m = load_map(GASLIB / "gaslib135_coefficients.yaml")
+    assert_allclose(m.surge_flow_at_head(SURGE_HEAD), SURGE_FLOW, rtol=1e-9)
+    assert_allclose(m.control_line_flow_at_head(SURGE_HEAD), 1.10 * SURGE_FLOW, rtol=1e-9)
+    # and a point on that line has no control-line margin left
+    assert_allclose(control_line_margin(m, 1.10 * SURGE_FLOW, SURGE_HEAD), 0.0, atol=1e-9)
 
 
 def test_margins_at_the_published_gaslib135_surge_point():

@@ -3,12 +3,12 @@
 from pathlib import Path
 
 import pytest
+from numpy.testing import assert_allclose
 
 from trainopt.errors import InputError
 from trainopt.machines.drivers import driver_from_dict
 from trainopt.machines.maps import load_map
 from trainopt.machines.train import (
-    DEFAULT_SURGE_CONTROL_OFFSET,
     Cooler,
     Section,
     Train,
@@ -38,9 +38,16 @@ def test_api617_maximum_continuous_and_trip_speed():
     assert trip * 60 == pytest.approx(11_550, rel=1e-12)
 
 
-def test_default_surge_control_offset_is_ten_percent_of_surge_flow():
-    # 10 % of surge flow at the same head: common practice for the control line offset.
-    assert DEFAULT_SURGE_CONTROL_OFFSET == 0.10
+def test_default_surge_control_offset_is_ten_percent_of_surge_flow(demo_map):
+    # 10 % of surge flow at the same head: common practice for the control line offset. A
+    # section given no offset must draw its control line there.
+    section = Section("A", demo_map)
+    speed = 0.5 * (demo_map.speed_min + demo_map.speed_max)
+    head = demo_map.head(demo_map.surge_flow_at_speed(speed), speed)
+    surge = float(demo_map.surge_flow_at_head(head))
+    assert surge > 0.0  # a real point on the tested map (NaN would fail here)
+    assert_allclose(demo_map.control_line_flow_at_head(head, section.surge_control_offset),
+                    1.10 * surge, rtol=1e-12)
 
 
 def test_single_section_train_is_a_plain_unit(demo_map, motor):

@@ -59,11 +59,11 @@ def argon():
 def test_argon_1_to_3_bar_matches_fluids_ideal_gas(argon):
     c = compress(argon, 1e5, 300.0, 3e5, ETA_P)
     ref = fluids_ideal_gas(300.0, 1e5, 3e5, ARGON_K, ARGON_MOLAR_MASS, ETA_P)
-    # At 1 bar argon's Z is 0.99939 (CoolProp), so real-gas terms of order 1 - Z = 6e-4
-    # remain. Measured: heads 1.2e-4 and 1.0e-4, T2 0.095 K low (of 519.6 K), exponent
-    # 1.8e-3 (a volume exponent, twice as sensitive), Schultz factor 6.0e-5 from 1.
-    # Tolerances about 3 times those.
-    # k = 5/3 and eta_p = 0.8 give n = 2 exactly, so T2 = 300 K x 3^(1/2); round-off only.
+    # At 1 bar argon's Z is 0.99939 (CoolProp), so real-gas terms of order 1 - Z = 6e-4 remain.
+    # Regression values (own output): heads 1.2e-4 and 1.0e-4, T2 0.095 K low (of 519.6 K), exponent
+    # 1.8e-3 (a volume exponent, twice as sensitive), Schultz factor 6.0e-5 from 1. Tolerances about
+    # 3 times those. k = 5/3 and eta_p = 0.8 give n = 2 exactly, so T2 = 300 K x 3^(1/2); round-off
+    # only.
     assert_allclose(ref["discharge_temperature"], 300.0 * math.sqrt(3.0), rtol=1e-12)
     assert_allclose(c.polytropic_head, ref["polytropic_head"], rtol=4e-4)
     assert_allclose(c.isentropic_head, ref["isentropic_head"], rtol=4e-4)
@@ -76,10 +76,10 @@ def test_argon_1_to_3_bar_matches_fluids_ideal_gas(argon):
 
 def test_argon_real_gas_residual_falls_with_pressure(argon):
     # The ideal-gas limit proper: at a tenth of the pressure every residual is a tenth
-    # (second-virial behaviour). Measured at 0.1 -> 0.3 bar: heads 7e-6 and 5e-6, T2
-    # 0.010 K, exponent 1.8e-4, Schultz factor 6.0e-6 from 1. The heads level off near
-    # 5e-6 because CoolProp's argon equation uses R = 8.31451 J/(mol K), 6e-6 above the
-    # CODATA 2018 value that fluids uses. Tolerances about 3 times the measured values.
+    # (second-virial behaviour). Regression values (own output) at 0.1 -> 0.3 bar: heads 7e-6 and
+    # 5e-6, T2 0.010 K, exponent 1.8e-4, Schultz factor 6.0e-6 from 1. The heads level off near 5e-6
+    # because CoolProp's argon equation uses R = 8.31451 J/(mol K), 6e-6 above the CODATA 2018 value
+    # that fluids uses. Tolerances about 3 times those values.
     c = compress(argon, 1e4, 300.0, 3e4, ETA_P)
     ref = fluids_ideal_gas(300.0, 1e4, 3e4, ARGON_K, ARGON_MOLAR_MASS, ETA_P)
     assert_allclose(c.polytropic_head, ref["polytropic_head"], rtol=2.5e-5)
@@ -94,9 +94,9 @@ def test_nitrogen_1_to_3_bar_matches_fluids_ideal_gas():
     nitrogen = Gas.from_composition({"N2": 1.0})
     c = compress(nitrogen, 1e5, 300.0, 3e5, ETA_P)
     ref = fluids_ideal_gas(300.0, 1e5, 3e5, NITROGEN_K, NITROGEN_MOLAR_MASS, ETA_P)
-    # Here the residual is mostly the vibrational rise of cp with temperature, which a
-    # constant k ignores: measured polytropic head 2.0e-4 low, isentropic head 1.2e-4 high,
-    # T2 0.58 K low (of 444 K), exponent 1.2e-4, Schultz factor 2.4e-5 from 1.
+    # Here the residual is mostly the vibrational rise of cp with temperature, which a constant k
+    # ignores: own output's polytropic head 2.0e-4 low, isentropic head 1.2e-4 high, T2 0.58 K low
+    # (of 444 K), exponent 1.2e-4, Schultz factor 2.4e-5 from 1.
     assert_allclose(c.polytropic_head, ref["polytropic_head"], rtol=1e-3)
     assert_allclose(c.isentropic_head, ref["isentropic_head"], rtol=1e-3)
     assert_allclose(c.discharge.temperature, ref["discharge_temperature"], atol=1.5)
@@ -119,11 +119,11 @@ def pipeline_pair(aga8_gulf_coast_gas):
 
 def test_schultz_against_path_method_at_pipeline_ratio(pipeline_pair):
     schultz, path = pipeline_pair
-    # Huntington (1985), ASME J. Eng. Gas Turbines Power 107(4):872, reports Schultz's
-    # method within well under 1 % of a rigorous path integration for natural gas away
-    # from the critical point (from memory). Measured here (CoolProp 8.0): Schultz's head
-    # 0.028 % below the path method's, discharge temperature 0.0099 K lower. Tolerances
-    # 0.05 % and 0.02 K: twice the measured difference, far inside Huntington's bound.
+    # Huntington (1985), ASME J. Eng. Gas Turbines Power 107(4):872, reports Schultz's method within
+    # well under 1 % of a rigorous path integration for natural gas away from the critical point
+    # (from memory). Regression values (own output, CoolProp 8.0): Schultz's head 0.028 % below the
+    # path method's, discharge temperature 0.0099 K lower. Tolerances 0.05 % and 0.02 K: twice that
+    # difference, far inside Huntington's bound.
     assert_allclose(schultz.polytropic_head, path.polytropic_head, rtol=5e-4)
     assert_allclose(schultz.discharge.temperature, path.discharge.temperature, atol=0.02)
     assert schultz.polytropic_head < path.polytropic_head
@@ -137,8 +137,8 @@ def test_schultz_against_path_method_at_ratio_four(aga8_gulf_coast_gas):
     args = (aga8_gulf_coast_gas, 20e5, 298.15, 80e5, ETA_P)
     schultz = compress(*args)
     path = compress(*args, method=PolytropicMethod.PATH, path_steps=24)
-    # A ratio of 4 in one section: measured 0.24 % in head and 0.26 K in T2 (path at 24
-    # steps, itself within 5e-6 of converged). Still well under Huntington's 1 %.
+    # A ratio of 4 in one section: regression values (own output) 0.24 % in head and 0.26 K in T2
+    # (path at 24 steps, itself within 5e-6 of converged). Still well under Huntington's 1 %.
     assert_allclose(schultz.polytropic_head, path.polytropic_head, rtol=4e-3)
     assert_allclose(schultz.discharge.temperature, path.discharge.temperature, atol=0.5)
 
@@ -149,8 +149,8 @@ def test_path_method_head_converges_as_steps_to_minus_two(aga8_gulf_coast_gas, p
                         method=PolytropicMethod.PATH, path_steps=steps).polytropic_head
         for steps in (6, 12, 24)
     }
-    # Trapezoidal integration in ln p with a corrected end state: error ~ steps^-2, so
-    # successive differences shrink by 4 (measured 4.00 and 4.01).
+    # Trapezoidal integration in ln p with a corrected end state: error ~ steps^-2, so successive
+    # differences shrink by 4 (regression values (own output) 4.00 and 4.01).
     ratio = (heads[12] - heads[6]) / (heads[24] - heads[12])
     assert_allclose(ratio, 4.0, rtol=0.05)
     # Richardson extrapolation of the 12- and 24-step heads agrees with 48 steps (whose
@@ -161,9 +161,9 @@ def test_path_method_head_converges_as_steps_to_minus_two(aga8_gulf_coast_gas, p
 
 def test_path_method_head_is_eta_times_work(pipeline_pair):
     _, path = pipeline_pair
-    # The path integrates dh = v dp / eta_p, so over the path H_p = eta_p (h2 - h1);
-    # 2e-8: each step's end state gets three corrector passes, which leaves the summed head
-    # and the enthalpy rise 4e-9 apart (measured).
+    # The path integrates dh = v dp / eta_p, so over the path H_p = eta_p (h2 - h1); 2e-8: each
+    # step's end state gets three corrector passes, which leaves the summed head and the enthalpy
+    # rise 4e-9 apart (regression value, own output).
     assert_allclose(path.polytropic_head, ETA_P * path.specific_work, rtol=2e-8)
 
 
@@ -217,8 +217,8 @@ def test_path_method_on_isentropic_basis_recovers_polytropic_efficiency(aga8_gul
     # 1e-8: brentq on the path efficiency with xtol 1e-10.
     assert_allclose(back.polytropic_efficiency, ETA_P, rtol=1e-8)
     assert_allclose(back.specific_work, forward.specific_work, rtol=1e-10)
-    # On this basis the head is eta_p (h2 - h1); forward it is the summed path integral.
-    # With 12 steps the three corrector passes leave the two 2.7e-7 apart (measured;
+    # On this basis the head is eta_p (h2 - h1); forward it is the summed path integral. With 12
+    # steps the three corrector passes leave the two 2.7e-7 apart (regression value, own output;
     # 4e-9 at the default 48 steps), hence 1e-6.
     assert_allclose(back.polytropic_head, forward.polytropic_head, rtol=1e-6)
 

@@ -28,18 +28,18 @@ def test_nist_gerg2008_test_gas_at_400_K_and_50_MPa(nist_gerg2008_test_gas):
     state = nist_gerg2008_test_gas.state(50_000e3, 400.0)
     molar_mass_g_mol = state.molar_mass * 1e3
     molar_density_mol_l = state.density / state.molar_mass / 1e3
-    # CoolProp combines GERG-2008's mixing rules (reducing functions and departure terms,
-    # Kunz & Wagner 2012) with its own reference equations for the pure fluids and its own
-    # pure-component molar masses, where GERG-2008 uses shorter pure-fluid equations. So it
-    # reproduces NIST's code to the 4th-5th digit, not to round-off. Measured with CoolProp
-    # 8.0: Z 1.4e-5, density 1.5e-5, molar mass 1.4e-5, speed of sound 1.4e-4 relative.
-    # Tolerances are twice those.
+    # CoolProp combines GERG-2008's mixing rules (reducing functions and departure terms, Kunz &
+    # Wagner 2012) with its own reference equations for the pure fluids and its own pure-component
+    # molar masses, where GERG-2008 uses shorter pure-fluid equations. So it reproduces NIST's code
+    # to the 4th-5th digit, not to round-off. Regression values (own output, CoolProp 8.0): Z
+    # 1.4e-5, density 1.5e-5, molar mass 1.4e-5, speed of sound 1.4e-4 relative. Tolerances are
+    # twice those.
     assert_allclose(state.compressibility, 1.174690666383717, rtol=3e-5)
     assert_allclose(molar_density_mol_l, 12.79828626082062, rtol=3e-5)
     assert_allclose(molar_mass_g_mol, 20.5427445016, rtol=3e-5)
     assert_allclose(state.speed_of_sound, 714.4248840596024, rtol=3e-4)
     # Same source: cp 58.45522051000366 and cv 39.02948218156372 J/(mol K), isentropic
-    # exponent (kappa = rho w^2 / p) 2.683820255058032. Measured 7.2e-4, 7.8e-4, 3.0e-4
+    # exponent (kappa = rho w^2 / p) 2.683820255058032. Own output differs by 7.2e-4, 7.8e-4, 3.0e-4
     # relative (caloric properties carry the pure-fluid ideal-gas parts too); tolerance twice.
     assert_allclose(state.cp * state.molar_mass, 58.45522051000366, rtol=1.5e-3)
     assert_allclose(state.cv * state.molar_mass, 39.02948218156372, rtol=1.5e-3)
@@ -51,8 +51,8 @@ def test_nist_gerg2008_test_gas_z_is_consistent_with_density(nist_gerg2008_test_
     # our density must satisfy it to round-off, whatever the model's own accuracy.
     state = nist_gerg2008_test_gas.state(50_000e3, 400.0)
     z = 50_000e3 / (state.density / state.molar_mass * 8.314462618 * 400.0)
-    # 1e-9: CoolProp's mixture model uses R = 8.31446261815 J/(mol K) (CODATA 2018);
-    # measured 2e-11, round-off of the density solve.
+    # 1e-9: CoolProp's mixture model uses R = 8.31446261815 J/(mol K) (CODATA 2018); regression
+    # value (own output) 2e-11, round-off of the density solve.
     assert_allclose(state.compressibility, z, rtol=1e-9)
 
 
@@ -70,12 +70,13 @@ def test_peng_robinson_z_deviation_from_gerg2008_on_aga8_gulf_coast_gas(
     z_gerg = aga8_gulf_coast_gas.properties(p, t)["compressibility"]
     z_pr = aga8_gulf_coast_gas_peng_robinson.properties(p, t)["compressibility"]
     deviation = z_pr / z_gerg - 1.0
-    # Measured with CoolProp 8.0: Peng-Robinson (no volume translation) gives Z 1.2 % to
-    # 2.8 % below GERG-2008 over 30-100 bar and 15-45 degC; -2.33 % at 60 bar, 25 degC.
+    # Regression values (own output, CoolProp 8.0): Peng-Robinson (no volume translation) gives Z
+    # 1.2 % to 2.8 % below GERG-2008 over 30-100 bar and 15-45 degC; -2.33 % at 60 bar, 25 degC.
     # docs/gas.md quotes these; the bounds below fail if either model changes.
     assert np.all(deviation < -0.010)
     assert np.all(deviation > -0.030)
-    assert_allclose(deviation[1, 2], -0.0233, atol=0.001)  # 60 bar, 25 degC; measured
+    # 60 bar, 25 degC; regression value (own output)
+    assert_allclose(deviation[1, 2], -0.0233, atol=0.001)
 
 
 def test_peng_robinson_is_real_coolprop_cubic(aga8_gulf_coast_gas_peng_robinson):
@@ -169,7 +170,7 @@ def test_argon_isentropic_exponent_tends_to_five_thirds():
     argon = Gas.from_composition({"Ar": 1.0})
     kappa = argon.state(1e3, 300.0).isentropic_exponent
     # 2e-5 at 1 kPa: argon's second virial coefficient still shifts kappa by 1.1e-5 there
-    # (measured; it falls in proportion to pressure, 1.1e-6 at 100 Pa).
+    # (regression value (own output); it falls in proportion to pressure, 1.1e-6 at 100 Pa).
     assert_allclose(kappa, 5.0 / 3.0, rtol=2e-5)
 
 
@@ -189,7 +190,8 @@ def test_aliases_and_percentages_give_the_same_gas(aga8_gulf_coast_composition):
     # 1e-12: the percentages are the published figures to 4 decimals, exactly as given.
     assert_allclose([x for _, x in by_alias.components], [x for _, x in by_name.components],
                     rtol=1e-12)
-    # C1-C10 (with i-C4, i-C5), N2, CO2, H2S, H2, O2, CO, H2O, He, Ar: as issue 2 lists.
+    # C1-C10 (with i-C4, i-C5), N2, CO2, H2S, H2, O2, CO, H2O, He, Ar: the components the design
+    # lists.
     assert len(COMPONENT_NAMES) == 21
 
 
@@ -310,8 +312,8 @@ def test_retrograde_dew_point_agrees_with_coolprop_stability_flash(aga8_gulf_coa
 
 def test_no_dew_point_above_the_cricondenbar(aga8_gulf_coast_gas):
     envelope = aga8_gulf_coast_gas.envelope
-    # The traced envelope's cricondenbar for this gas is 67.2 bar (CoolProp 8.0, measured);
-    # 0.5 bar: tracer step.
+    # The traced envelope's cricondenbar for this gas is 67.2 bar (regression value (own output),
+    # CoolProp 8.0); 0.5 bar: tracer step.
     assert_allclose(envelope.cricondenbar, 67.2e5, atol=0.5e5)
     assert math.isnan(aga8_gulf_coast_gas.dew_temperature(100e5))
     aga8_gulf_coast_gas.check_gas_phase(100e5, 253.15)  # dense phase, no dew point to cross

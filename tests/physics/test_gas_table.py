@@ -2,7 +2,7 @@
 
 Reference: :func:`trainopt.physics.compression.compress` and ``compress_to_head``, which evaluate
 CoolProp (GERG-2008 parameters) directly at every state; the table must reproduce them,
-so the figures below are the interpolation error of the table, measured.
+so the figures below are the interpolation error of the table: regression values (own output).
 """
 
 import numpy as np
@@ -38,13 +38,13 @@ def test_compress_matches_coolprop_states(pipeline_table, aga8_gulf_coast_gas, r
     for i in range(p1.size):
         exact = compress(aga8_gulf_coast_gas, p1[i], t1[i], p2[i], eta[i], basis)
         head = exact.polytropic_head if basis is HeadBasis.POLYTROPIC else exact.isentropic_head
-        # 1e-5: the measured table error here is 3.3e-6 (bicubic in ln p and T, 16 points
-        # over 20-150 bar and 10 K steps), three times below.
+        # 1e-5: the table error here (regression value, own output) is 3.3e-6 (bicubic in ln p and
+        # T, 16 points over 20-150 bar and 10 K steps), three times below.
         assert_allclose(table.head[i], head, rtol=1e-5)
         assert_allclose(table.specific_work[i], exact.specific_work, rtol=1e-5)
-        # 2 mK: the measured error is 0.3 mK.
+        # 2 mK: the error is 0.3 mK (regression value, own output).
         assert_allclose(table.discharge_temperature[i], exact.discharge.temperature, atol=2e-3)
-        # Density at suction: measured 2.5e-6 relative.
+        # Density at suction: 2.5e-6 relative (regression value, own output).
         assert_allclose(table.suction_density[i], exact.suction.density, rtol=1e-5)
 
 

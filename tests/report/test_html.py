@@ -104,9 +104,11 @@ def test_report_refuses_to_overwrite(report, demo_case, study):
 def test_tables_to_csv_and_excel(tmp_path, audit):
     tables = audit_tables(audit)
     written = write_tables(tables, tmp_path / "csv")
-    monthly = pd.read_csv(written["monthly_by_unit"])
+    monthly = pd.read_csv(written["monthly_by_unit"], comment="#")
     assert set(monthly["unit"]) == {"A", "B", "C", "D"}
-    hours = pd.read_csv(written["hours"])
+    for path in written.values():  # every CSV ends with the shared caution
+        assert path.read_text(encoding="utf-8").splitlines()[-1] == f"# {CAUTION}"
+    hours = pd.read_csv(written["hours"], comment="#")
     assert "time_UTC" in hours
     assert len(hours) == 6
     # the audited energy in the tables is the audit's own total
@@ -115,6 +117,8 @@ def test_tables_to_csv_and_excel(tmp_path, audit):
     book = write_tables(tables, tmp_path / "xlsx", excel=True)
     sheets = pd.read_excel(book["workbook"], sheet_name=None)
     assert "monthly_by_unit" in sheets
+    assert list(sheets)[0] == "caution"  # the workbook opens on the caution
+    assert sheets["caution"]["caution"].tolist() == [CAUTION]
     assert "unit_hours" not in sheets
     assert book["unit_hours"].suffix == ".csv"
     with pytest.raises(InputError, match="exists already"):
@@ -193,7 +197,8 @@ def test_commands_report_bad_input_in_one_line(app, files, tmp_path):
 
 
 def test_envelope_command(app, tmp_path):
-    result = CliRunner().invoke(app, ["envelope", str(DEMO), "--offline", "B", "--offline", "D",
+    # --offline takes a comma-separated list, as --service does
+    result = CliRunner().invoke(app, ["envelope", str(DEMO), "--offline", "B,D",
                                       "--service", "A", "--points", "3", "--out",
                                       str(tmp_path), "--excel", "--quiet"])
     assert result.exit_code == 0, result.output
@@ -201,3 +206,33 @@ def test_envelope_command(app, tmp_path):
     assert CAUTION in result.output
     assert (tmp_path / "envelope.html").is_file()
     assert (tmp_path / "tables.xlsx").is_file()
+
+
+def test_envelope_refuses_a_unit_both_offline_and_in_service(app, tmp_path):
+    out = tmp_path / "e"
+    result = CliRunner().invoke(app, ["envelope", str(DEMO), "--service", "A,C", "--offline",
+                                      "A", "--out", str(out), "--quiet"])
+    assert result.exit_code == 2
+    assert result.stderr.splitlines() == [
+        "error: --service: 'A,C' includes A, which --offline takes out of service; drop it "
+        "from --offline or from --service"]
+    assert not out.exists()
+
+
+def test_service_sets_refuse_a_unit_taken_offline(demo_case):
+    from trainopt.studies.envelope import service_sets
+
+    with pytest.raises(InputError, match="service set: A is also taken offline"):
+        service_sets(demo_case, offline=["A"], named=[["A", "C"]])
+
+
+def test_studies_refuse_an_out_that_is_a_file_before_any_work(app, files, tmp_path):
+    taken = tmp_path / "taken"
+    taken.write_text("keep me")
+    for args in (["envelope", str(DEMO)],
+                 ["audit", str(DEMO), str(files[0]), "--columns", str(files[1])]):
+        result = CliRunner().invoke(app, [*args, "--out", str(taken / "sub"), "--quiet"])
+        assert result.exit_code == 2
+        assert result.stderr.splitlines() == [
+            f"error: --out: {taken} is a file, not a folder; give a folder path"]
+    assert taken.read_text() == "keep me"

@@ -5,6 +5,7 @@ from pathlib import Path
 import matplotlib
 import pandas as pd
 
+from trainopt.caution import CAUTION
 from trainopt.machines.maps import load_map
 from trainopt.report.map_picture import plot_map, write_fit_report
 
@@ -17,15 +18,17 @@ def test_fit_report_of_a_demo_map(tmp_path):
     paths = write_fit_report(DEMO / "motor_unit.yaml", tmp_path / "out")
     assert set(paths) == {"report", "picture", "points", "lines"}
     assert paths["picture"].read_bytes()[:8] == PNG_SIGNATURE
-    points = pd.read_csv(paths["points"])
+    points = pd.read_csv(paths["points"], comment="#")
     assert len(points) == 40  # 5 speed lines of 8 invented points
     assert {"speed [rpm]", "flow [m3/s]", "head [kJ/kg]", "head_error"} <= set(points.columns)
-    lines = pd.read_csv(paths["lines"])
+    lines = pd.read_csv(paths["lines"], comment="#")
     assert lines["speed [rpm]"].tolist() == [8000, 8750, 9500, 10250, 11000]
     report = paths["report"].read_text()
     assert "three_term speed dependence" in report
     assert "Residuals" in report
-    assert "does not replace the vendor's data" in report
+    assert CAUTION in report
+    for kind in ("points", "lines"):
+        assert paths[kind].read_text().splitlines()[-1] == f"# {CAUTION}"
 
 
 def test_report_of_a_published_coefficient_map(tmp_path):

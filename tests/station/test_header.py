@@ -129,6 +129,9 @@ def test_evaluate_takes_the_header_pressure_in_the_split(header_case):
     result = trainopt.evaluate(header_case, split)
     assert result.status != "infeasible", result.reason
     assert_allclose(result.header["pressure_kPa"], 4800.0, rtol=1e-12)
+    left_out = result.units[~result.units["running"].astype(bool)]
+    assert set(left_out["name"]) == {"LP3", "HP2"}  # stopped, with the case's status
+    assert set(left_out["status"]) == {"available"}
     with pytest.raises(InputError, match="interstage_header: is missing"):
         trainopt.evaluate(header_case, {"LP1": "100 kg/s", "HP1": "100 kg/s"})
     with pytest.raises(InputError, match="same total"):
@@ -166,3 +169,25 @@ def test_a_header_range_outside_the_headers_is_refused(tmp_path, header_yaml, wr
     data["interstage_header"]["pressure_min"] = "20 bar"
     with pytest.raises(InputError, match="pressure_min: 2000 kPa is not between"):
         trainopt.load_case(write_demo_variant(tmp_path, data))
+
+
+def test_rules_run_twice_in_both_groups(header_case, searched):
+    # Each rule on the optimum's units and on every available unit of both groups, at the
+    # searched header pressure; the saving is the rule's power less the optimum's.
+    from trainopt.station.header import evaluate_header
+
+    search, demand, best = searched
+    result = evaluate_header(header_case, demand, best.pressure, search, baselines=True)
+    running = result.units[result.units["running"].astype(bool)]["name"].tolist()
+    names = [t.name for t in header_case.trains]
+    for key, units in (("baselines", running), ("baselines_all_units", names)):
+        for rule, entry in getattr(result, key).items():
+            assert sorted(entry["running_units"]) == sorted(units), (key, rule)
+            if entry["status"] != "feasible":
+                continue
+            assert_allclose(entry["saving_kW"], entry["total_shaft_power_kW"]
+                            - result.total_shaft_power / 1e3, rtol=1e-9, atol=1e-6)  # kW
+            assert_allclose(entry["objective_saving"], entry["saving_kW"], rtol=1e-9,
+                            atol=1e-6)
+            assert entry["saving_kW"] > -0.01 * result.total_shaft_power / 1e3  # 2e-4 x units
+    assert result.baselines_all_units["equal_flow"]["saving_kW"] > 1000.0  # five units run

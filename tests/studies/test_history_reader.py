@@ -127,8 +127,8 @@ def test_bad_rows_are_skipped_and_counted(tmp_path, demo_case):
     h = read_history(_write(tmp_path, table), _mapping(tmp_path), demo_case)
     assert len(h.frame) == 1
     assert h.skipped == {
-        "station.suction_pressure: missing": 1,
-        "units.A.flow: not a number": 1,
+        "station.suction_pressure: missing (column 'p1')": 1,
+        "units.A.flow: not a number (column 'A_flow')": 1,
         "station.suction_pressure: not a positive absolute pressure": 1,
         "units.D.available: not 1/0, true/false, yes/no or on/off": 1,
         "discharge pressure not above suction pressure": 1,
@@ -145,12 +145,31 @@ def test_optional_columns_may_be_blank(tmp_path, demo_case):
     assert np.isnan(h.frame["A.speed"].iloc[1])
 
 
+def test_text_and_infinities_are_counted_skips_in_every_column(tmp_path, demo_case):
+    table = _table(6).astype(object)
+    table.loc[0, "A_power"] = "Bad Input"     # text in an optional power column
+    table.loc[1, "A_speed"] = "inf"           # an infinite speed
+    table.loc[2, "B_flow"] = "-inf"           # an infinite flow
+    table.loc[3, "A_power"] = "#VALUE!"       # a spreadsheet error
+    table.loc[4, "A_speed"] = ""              # a blank optional cell: no reading, kept
+    h = read_history(_write(tmp_path, table), _mapping(tmp_path), demo_case)
+    assert h.skipped == {
+        "units.A.power: not a number (column 'A_power')": 2,
+        "units.A.speed: not finite (column 'A_speed')": 1,
+        "units.B.flow: not finite (column 'B_flow')": 1,
+    }
+    assert sorted(h.skipped_rows["line"]) == [2, 3, 4, 5]
+    assert len(h.frame) == 2
+    assert np.isfinite(h.frame["A.power"]).all()  # no text read as a missing power
+    assert np.isnan(h.frame["A.speed"].iloc[0])  # the blank cell, left unknown
+
+
 def test_small_negative_flow_is_zero_drift(tmp_path, demo_case):
     table = _table()
     table.loc[1, "B_flow"] = -100.0      # 0.03 % of the column's size: zero drift
     table.loc[2, "B_flow"] = -50_000.0   # 14 %: a bad value
     h = read_history(_write(tmp_path, table), _mapping(tmp_path), demo_case)
-    assert h.skipped == {"units.B.flow: negative": 1}
+    assert h.skipped == {"units.B.flow: negative (column 'B_flow')": 1}
     assert h.frame["B.flow"].iloc[1] == 0.0
 
 

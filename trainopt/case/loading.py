@@ -27,7 +27,7 @@ from trainopt.case.schema import (
 )
 from trainopt.errors import InputError
 from trainopt.machines.degradation import Degradation, DegradationWarning, degraded_map
-from trainopt.machines.drivers import driver_from_dict
+from trainopt.machines.drivers import GasTurbine, driver_from_dict
 from trainopt.machines.train import (
     Cooler,
     Section,
@@ -37,7 +37,14 @@ from trainopt.machines.train import (
     speed_limits_from_rated,
 )
 from trainopt.physics.gas import Gas
-from trainopt.physics.units import Flow, Kind, atmospheric_pressure, parse_flow, parse_quantity
+from trainopt.physics.units import (
+    STANDARD_ATMOSPHERE,
+    Flow,
+    Kind,
+    atmospheric_pressure,
+    parse_flow,
+    parse_quantity,
+)
 
 
 @dataclass(frozen=True)
@@ -274,7 +281,7 @@ def _build(s: CaseSchema, path: Path, load_map) -> Case:
     header = (None if s.interstage_header is None
               else _interstage_header(s.interstage_header, names, p, p1, p2, atm))
     return Case(s.name, path, gas, atm, ambient, p1, t1, p2, demand, s.objective, econ, trains,
-                interstage_header=header)
+                extra={"demand": str(s.demand)}, interstage_header=header)
 
 
 def _interstage_header(h: InterstageHeaderSchema, names: list[str], p: str, p1: float,
@@ -370,7 +377,7 @@ def _train(u: UnitSchema, i: int, here: Path, p: str, load_map, atm: float) -> T
         if not u.sections:
             raise InputError(key + ".sections", "a train needs at least one section",
                              "list its sections in flow order, each with a map")
-        sections = tuple(_section(sec, j, here, key, t_max, load_map)
+        sections = tuple(_section(sec, j, here, key, t_max, load_map, atm)
                          for j, sec in enumerate(u.sections))
     if u.calibration is not None:
         sections = _calibrated(sections, u.calibration, key + ".calibration")
@@ -397,7 +404,7 @@ def _train(u: UnitSchema, i: int, here: Path, p: str, load_map, atm: float) -> T
     if any(s.drive is not None for s in sections):
         raise InputError(key + ".driver", "the unit has a driver and some sections have their "
                          "own", "give the driver to the unit only, or to every section only")
-    driver = driver_from_dict(u.driver, key + ".driver")
+    driver = _site_driver(u.driver, atm, key + ".driver")
     lo, hi = _speed_range(driver, [(s.compressor_map, s.speed_ratio) for s in sections],
                           u.rated_speed, u.speed_min, u.speed_max, key)
     return Train(u.name, sections, driver, lo, hi, max_power, loss, UnitStatus(u.status), u.group)
@@ -421,7 +428,8 @@ def _calibrated(sections: tuple[Section, ...], c: CalibrationSchema, key: str
                  for s in sections)
 
 
-def _section(sec: SectionSchema, j: int, here: Path, key: str, t_max, load_map) -> Section:
+def _section(sec: SectionSchema, j: int, here: Path, key: str, t_max, load_map,
+             atm: float) -> Section:
     k = f"{key}.sections[{j}]"
     cooler = None if sec.cooler is None else _cooler(sec.cooler, k + ".cooler")
     limit = (parse_quantity(sec.max_discharge_temperature, Kind.TEMPERATURE,
@@ -434,7 +442,7 @@ def _section(sec: SectionSchema, j: int, here: Path, key: str, t_max, load_map) 
     cmap = _map(load_map, here / sec.map, k + ".map")
     drive = None
     if sec.driver is not None:
-        driver = driver_from_dict(sec.driver, k + ".driver")
+        driver = _site_driver(sec.driver, atm, k + ".driver")
         lo, hi = _speed_range(driver, [(cmap, 1.0)], sec.rated_speed, sec.speed_min,
                               sec.speed_max, k)
         power = (parse_quantity(sec.max_power, Kind.POWER, k + ".max_power")
@@ -448,6 +456,33 @@ def _section(sec: SectionSchema, j: int, here: Path, key: str, t_max, load_map) 
     return Section(sec.name, cmap, ratio, _fraction(sec.surge_control_offset,
                                                     k + ".surge_control_offset"), limit,
                    cooler, drive)
+
+
+def standard_elevation(pressure: float) -> float:
+    """The elevation whose standard-atmosphere pressure is ``pressure`` [Pa] -> [m].
+
+    Inverse of :func:`trainopt.physics.units.atmospheric_pressure` (ISO 2533:1975
+    troposphere, ``p = 101325 (1 - 2.25577e-5 h)^5.25588``).
+    """
+    return (1.0 - (pressure / STANDARD_ATMOSPHERE) ** (1.0 / 5.25588)) / 2.25577e-5
+
+
+def _site_driver(data, atm: float, field_name: str):
+    """A driver from its case mapping; a gas turbine's elevation is the site's by default.
+
+    A gas turbine's power scales with the ambient pressure (``site_elevation``); unless the
+    driver gives its own ``site_elevation``, the site's atmospheric pressure (from
+    ``site.elevation`` or ``site.atmospheric_pressure``) sets it.
+    """
+    if (isinstance(data, dict) and data.get("kind") == GasTurbine.kind
+            and "site_elevation" not in data):
+        elevation = standard_elevation(atm)
+        if not -500.0 <= elevation <= 11_000.0:
+            raise InputError("site.atmospheric_pressure", f"{atm / 1e3:.1f} kPa is outside the "
+                             "standard atmosphere from -500 m to 11 km that sets a gas "
+                             "turbine's power", f"check it, or give {field_name}.site_elevation")
+        data = {**data, "site_elevation": f"{elevation:.6f} m"}
+    return driver_from_dict(data, field_name)
 
 
 def _map(load_map, path: Path, field_name: str):

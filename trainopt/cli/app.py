@@ -9,12 +9,12 @@ from __future__ import annotations
 
 import typer
 
+from trainopt.caution import CAUTION
 from trainopt.cli import calibrate, gas, maps, station, studies
 
 app = typer.Typer(add_completion=False, no_args_is_help=True,
-                  help="Least-power load sharing and margins for centrifugal compressor stations. "
-                       "Advisory only: it never replaces the anti-surge controller, the vendor's "
-                       "data or an engineer's judgement.")
+                  help="Least-power load sharing and margins for centrifugal compressor stations.",
+                  epilog=CAUTION)
 
 
 @app.callback()

@@ -11,8 +11,8 @@ from typing import Annotated
 
 import typer
 
+from trainopt.caution import CAUTION
 from trainopt.cli.failure import friendly
-from trainopt.station.result import CAUTION
 
 
 def calibrate_command(
@@ -50,7 +50,7 @@ def calibrate_command(
     """Calibrate each unit's map to its history: degradation factors and a calibrated case."""
     from trainopt.errors import InputError
     from trainopt.physics.units import Kind, parse_quantity
-    from trainopt.report.calibration_report import write_calibration
+    from trainopt.report.calibration_report import output_folder, write_calibration
     from trainopt.studies.calibration import calibrate
     from trainopt.studies.steady_windows import SteadyBands
 
@@ -64,6 +64,7 @@ def calibrate_command(
         pressure=parse_quantity(pressure_band, Kind.DIMENSIONLESS, "--pressure-band"),
         temperature=parse_quantity(temperature_band, Kind.TEMPERATURE_DIFFERENCE,
                                    "--temperature-band"))
+    output_folder(out, case_file, overwrite=force)  # refuse now, before the work
     result = calibrate(case_file, history, columns, since=since, until=until, bands=bands,
                        fit_flow=flow_factor)
     written = write_calibration(result, out, wash_cost=wash_cost, overhaul_cost=overhaul_cost,

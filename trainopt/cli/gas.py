@@ -9,6 +9,7 @@ from pathlib import Path
 
 import typer
 
+from trainopt.caution import CAUTION
 from trainopt.cli.failure import friendly
 from trainopt.physics.compression import HeadBasis, PolytropicMethod
 from trainopt.physics.gas import EquationOfState
@@ -25,12 +26,14 @@ def _table(rows: dict, title: str) -> str:
 
 
 def _emit(data: dict, as_json: bool, title: str) -> None:
+    data = {**data, "caution": CAUTION}
     if as_json:
         # NaN (no dew point above the cricondenbar) is not JSON; write null instead.
         data = {k: None if isinstance(v, float) and math.isnan(v) else v for k, v in data.items()}
         sys.stdout.write(json.dumps(data, indent=2, allow_nan=False) + "\n")
     else:
-        sys.stdout.write(_table(data, title) + "\n")
+        rows = {k: v for k, v in data.items() if k != "caution"}
+        sys.stdout.write(_table(rows, title) + "\n\n" + CAUTION + "\n")
 
 
 def gas_command(
@@ -67,4 +70,4 @@ def gas_command(
 
 def register(app: typer.Typer) -> None:
     """Add the ``gas`` command to the ``trainopt`` app."""
-    app.command("gas")(friendly(gas_command))
+    app.command("gas", epilog=CAUTION)(friendly(gas_command))

@@ -8,33 +8,48 @@ from pathlib import Path
 
 import typer
 
+from trainopt.caution import CAUTION
 from trainopt.cli.failure import friendly
+from trainopt.cli.options import unit_names
+
+_FORCE = "Replace existing files of the same names in --out."
+_VERBOSE = "Also show the solver's details (piecewise objective, formulation, solve time)."
+_EXPLAIN = "Define every column of the table under it."
 
 
 def optimize_command(
     case_file: Path = typer.Argument(..., help="Station case (YAML)."),
     demand: str | None = typer.Option(None, "--demand", help="Throughput, e.g. '300 MMSCFD'."),
-    offline: list[str] = typer.Option([], "--offline", help="Unit to take offline (repeat)."),
+    offline: list[str] = typer.Option([], "--offline", help="Unit(s) to take offline, "
+                                      "comma-separated, e.g. 'A,C' (repeat)."),
     objective: str | None = typer.Option(None, "--objective",
                                          help="shaft_power, energy_input or cost."),
     as_json: bool = typer.Option(False, "--json", help="Print JSON instead of a table."),
     out: Path | None = typer.Option(None, "--out", help="Folder for JSON, CSV and map pictures."),
+    force: bool = typer.Option(False, "--force", help=_FORCE),
+    verbose: bool = typer.Option(False, "--verbose", help=_VERBOSE),
+    explain: bool = typer.Option(False, "--explain", help=_EXPLAIN),
 ) -> None:
     """Find the least-power split of the demand across the station's units."""
     import trainopt
 
     case = trainopt.load_case(case_file)
-    result = trainopt.optimize(case, demand=demand, offline=offline, objective=objective)
-    _show(result, as_json, out)
+    folder = _check_out(case, out, force)
+    result = trainopt.optimize(case, demand=demand, offline=unit_names(offline, "--offline"),
+                               objective=objective)
+    _show(result, as_json, folder, demand, verbose=verbose, explain=explain)
 
 
 def evaluate_command(
     case_file: Path = typer.Argument(..., help="Station case (YAML)."),
     split: list[str] = typer.Option(..., "--split", help="NAME=QTY, e.g. A=25kg/s (repeat)."),
     demand: str | None = typer.Option(None, "--demand", help="Throughput the split must add up "
-                                      "to; the case's demand by default."),
+                                      "to; by default the split's sum is the demand."),
     as_json: bool = typer.Option(False, "--json", help="Print JSON instead of a table."),
     out: Path | None = typer.Option(None, "--out", help="Folder for JSON, CSV and map pictures."),
+    force: bool = typer.Option(False, "--force", help=_FORCE),
+    verbose: bool = typer.Option(False, "--verbose", help=_VERBOSE),
+    explain: bool = typer.Option(False, "--explain", help=_EXPLAIN),
 ) -> None:
     """Report a given split (net flow per running unit) on the true model."""
     import trainopt
@@ -49,26 +64,42 @@ def evaluate_command(
             raise InputError("--split", f"unit '{name.strip()}' is given twice")
         shares[name.strip()] = qty.strip()
     case = trainopt.load_case(case_file)
-    target = demand if demand is not None else case.demand_mass_flow()
-    _show(trainopt.evaluate(case, shares, demand=target), as_json, out)
+    folder = _check_out(case, out, force)
+    _show(trainopt.evaluate(case, shares, demand=demand), as_json, folder, demand,
+          verbose=verbose, explain=explain)
 
 
-def _show(result, as_json: bool, out: Path | None) -> None:
+def _check_out(case, out: Path | None, force: bool):
+    """The output folder, checked before any solve (None without --out)."""
+    if out is None:
+        return None
+    from trainopt.report.files import check_result_folder
+
+    return check_result_folder(case, out, overwrite=force)
+
+
+def _show(result, as_json: bool, folder, demand: str | None, *, verbose: bool = False,
+          explain: bool = False) -> None:
+    """Print the result first, then write its files: a write failure loses no answer."""
     from trainopt.report.terminal import format_result
 
-    if out is not None:
-        from trainopt.report.files import write_result_files
-
-        write_result_files(result, out)
     if as_json:
         sys.stdout.write(json.dumps(result.to_dict(), indent=2, default=str) + "\n")
     else:
-        sys.stdout.write(format_result(result) + "\n")
+        sys.stdout.write(format_result(result, demand_text=demand, verbose=verbose,
+                                       explain=explain) + "\n")
+    sys.stdout.flush()
+    if folder is not None:
+        from trainopt.report.files import write_result_files
+
+        written = write_result_files(result, folder)
+        if not as_json:
+            sys.stdout.write("".join(f"{kind}: {path}\n" for kind, path in written.items()))
     if result.status == "infeasible":
         raise typer.Exit(1)
 
 
 def register(app: typer.Typer) -> None:
     """Add the ``optimize``, ``evaluate`` commands to the ``trainopt`` app."""
-    app.command("optimize")(friendly(optimize_command))
-    app.command("evaluate")(friendly(evaluate_command))
+    app.command("optimize", epilog=CAUTION)(friendly(optimize_command))
+    app.command("evaluate", epilog=CAUTION)(friendly(evaluate_command))

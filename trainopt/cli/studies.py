@@ -13,9 +13,9 @@ from typing import Annotated
 
 import typer
 
+from trainopt.caution import CAUTION
 from trainopt.cli.failure import friendly
-from trainopt.errors import InputError
-from trainopt.station.result import CAUTION
+from trainopt.cli.options import refuse_overlap, unit_names
 
 
 def _written(paths: dict) -> None:
@@ -26,7 +26,8 @@ def _written(paths: dict) -> None:
 def envelope_command(
     case_file: Annotated[Path, typer.Argument(help="Station case (YAML).")],
     offline: Annotated[list[str] | None, typer.Option(
-        "--offline", help="Unit out of service in every study (repeat).")] = None,
+        "--offline", help="Unit(s) out of service in every study, comma-separated, e.g. "
+        "'B,D' (repeat).")] = None,
     service: Annotated[list[str] | None, typer.Option(
         "--service", help="A further set of units in service, comma-separated, e.g. 'A,C' "
         "(repeat).")] = None,
@@ -48,13 +49,10 @@ def envelope_command(
     """Turndown, unit-offline envelopes and least power against throughput."""
     from trainopt.report.study_reports import envelope_report
 
-    named = []
-    for text in service or []:
-        units = [u.strip() for u in text.split(",") if u.strip()]
-        if not units:
-            raise InputError("--service", f"'{text}' names no unit", "write e.g. 'A,C'")
-        named.append(units)
-    study, written = envelope_report(case_file, out, offline=offline or [], named=named,
+    off = unit_names(offline, "--offline")
+    named = [unit_names([text], "--service") for text in service or []]
+    refuse_overlap(off, named)
+    study, written = envelope_report(case_file, out, offline=off, named=named,
                                      sweep=sweep, points=points, excel=excel, overwrite=force,
                                      workers=workers, scheduler=scheduler, progress=not quiet)
     columns = ["service_set", "least_without_recycle_MMSCMD", "largest_MMSCMD",
@@ -111,9 +109,11 @@ def audit_command(
                                    progress=not quiet)
     sys.stdout.write(result.summary() + "\n\n")
     _written(written)
+    if CAUTION not in result.summary():
+        sys.stdout.write(CAUTION + "\n")
 
 
 def register(app: typer.Typer) -> None:
     """Add the ``envelope`` and ``audit`` commands to the ``trainopt`` app."""
-    app.command("envelope")(friendly(envelope_command))
-    app.command("audit")(friendly(audit_command))
+    app.command("envelope", epilog=CAUTION)(friendly(envelope_command))
+    app.command("audit", epilog=CAUTION)(friendly(audit_command))

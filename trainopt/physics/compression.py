@@ -230,7 +230,8 @@ def compress(
     -----
     Polytropic head by Schultz: ``H_p = f n/(n-1) (p2 v2 - p1 v1)`` with
     ``n = ln(p2/p1)/ln(v1/v2)`` and ``f = (h2s - h1) / [ns/(ns-1) (p2 v2s - p1 v1)]``
-    (ASME PTC 10-1997 eq. 5.1T-x and appendix G). Isentropic basis:
+    (Schultz 1962 [1], his polytropic volume exponent and factor ``f``; the same method in
+    ASME PTC 10-1997 [2], section 5 and appendix G). Isentropic basis:
     ``h2 = h1 + (h2s - h1)/eta_s`` exactly. Efficiencies on the other basis follow from
     the actual enthalpy rise.
     """

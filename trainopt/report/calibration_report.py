@@ -4,16 +4,14 @@
 ``calibration`` key under each unit; the maps are not copied or changed),
 ``calibration.html`` (measured points on each map, residuals before and after, the factors
 with their standard errors, the monthly trend, the rows left out, the cost of wear) and the
-tables as CSV. Everything is written into a temporary folder beside the target and moved
-into place only when complete; existing files are refused unless ``overwrite``.
+tables as CSV, by the writing rule of :mod:`trainopt.report.output_folder` (checked before
+the work, staged, moved into place when complete; existing files refused unless
+``overwrite``).
 """
 
 from __future__ import annotations
 
 import html
-import os
-import shutil
-import tempfile
 from pathlib import Path
 
 import numpy as np
@@ -21,11 +19,13 @@ import pandas as pd
 from matplotlib.backends.backend_agg import FigureCanvasAgg
 from matplotlib.figure import Figure
 
+from trainopt.caution import CAUTION
 from trainopt.report.html import _PALETTE, _STYLE, _figure, _image, _table
-from trainopt.report.tables import _for_file, check_free
-from trainopt.station.result import CAUTION
+from trainopt.report.output_folder import OutputFolder, write_csv
+from trainopt.report.tables import _for_file
 
 TABLES = ("factors", "trend", "excluded", "points", "wear_monthly", "wear_payback")
+FILES = ("case.yaml", "calibration.html", *(f"{name}.csv" for name in TABLES))
 
 
 def calibration_tables(result, monthly: pd.DataFrame, payback: pd.DataFrame
@@ -134,10 +134,34 @@ def calibration_html(result, tables: dict[str, pd.DataFrame]) -> str:
             "</head><body>\n" + "\n".join(body) + "\n</body></html>\n")
 
 
+def output_folder(out_dir: str | Path, case_path: str | Path, *, overwrite: bool = False
+                  ) -> OutputFolder:
+    """The checked output folder of a calibration (call it before the work).
+
+    Raises
+    ------
+    InputError
+        The folder is a file or not writable, a file of the same name exists (without
+        ``overwrite``), or ``case.yaml`` there would be the original case file itself.
+    """
+    from trainopt.errors import InputError
+
+    if (Path(out_dir) / "case.yaml").resolve() == Path(case_path).resolve():
+        raise InputError("--out", "would replace the original case file",
+                         "give another folder")
+    folder = OutputFolder(out_dir, overwrite=overwrite, option="--out")
+    folder.check(FILES)
+    return folder
+
+
 def write_calibration(result, out_dir: str | Path, *, wash_cost: float | None = None,
                       overhaul_cost: float | None = None, overwrite: bool = False
                       ) -> dict[str, Path]:
     """Write the calibrated case, the HTML report and the CSV tables into ``out_dir``.
+
+    Follows the writing rule of :mod:`trainopt.report.output_folder`: checked first, written
+    into a temporary folder, moved into place when complete; each CSV ends with the caution
+    as a ``#`` comment line.
 
     Parameters
     ----------
@@ -154,31 +178,19 @@ def write_calibration(result, out_dir: str | Path, *, wash_cost: float | None = 
     dict of str to Path
         ``case``, ``html`` and one entry per table.
     """
-    from trainopt.errors import InputError
     from trainopt.studies.calibration import calibrated_case_text
     from trainopt.studies.wear_cost import wear_cost
 
-    out = Path(out_dir)
-    if out.exists() and not out.is_dir():
-        raise InputError(str(out), "is a file, not a folder", "give a folder (--out)")
-    targets = {"case": out / "case.yaml", "html": out / "calibration.html",
-               **{name: out / f"{name}.csv" for name in TABLES}}
-    if Path(result.as_new_case.path).resolve() == targets["case"].resolve():
-        raise InputError("--out", "would replace the original case file",
-                         "give another folder")
-    check_free(targets.values(), overwrite)
+    folder = output_folder(out_dir, result.as_new_case.path, overwrite=overwrite)
     monthly, payback = wear_cost(result, wash_cost=wash_cost, overhaul_cost=overhaul_cost)
     tables = calibration_tables(result, monthly, payback)
-    out.mkdir(parents=True, exist_ok=True)
-    staging = Path(tempfile.mkdtemp(prefix=".calibration-", dir=out))
-    try:
-        (staging / "case.yaml").write_text(calibrated_case_text(result, out), encoding="utf-8")
-        (staging / "calibration.html").write_text(calibration_html(result, tables),
-                                                  encoding="utf-8")
+    with folder.writing():
+        folder.path("case.yaml").write_text(calibrated_case_text(result, out_dir),
+                                            encoding="utf-8")
+        folder.path("calibration.html").write_text(calibration_html(result, tables),
+                                                   encoding="utf-8")
         for name in TABLES:
-            _for_file(tables[name]).to_csv(staging / f"{name}.csv", index=False)
-        for path in targets.values():
-            os.replace(staging / path.name, path)
-    finally:
-        shutil.rmtree(staging, ignore_errors=True)
-    return targets
+            write_csv(_for_file(tables[name]), folder.path(f"{name}.csv"))
+    written = folder.written
+    return {"case": written["case.yaml"], "html": written["calibration.html"],
+            **{name: written[f"{name}.csv"] for name in TABLES}}

@@ -15,9 +15,11 @@ from matplotlib.backends.backend_agg import FigureCanvasAgg
 from matplotlib.colors import LinearSegmentedColormap
 from matplotlib.figure import Figure
 
+from trainopt.caution import CAUTION
 from trainopt.machines.maps.compressor_map import DEFAULT_CONTROL_LINE_OFFSET, CompressorMap
 from trainopt.machines.maps.fit import MapFit, fan_law_departure, fit_map
 from trainopt.machines.maps.table import read_map_source
+from trainopt.report.output_folder import OutputFolder, safe_name, write_csv
 
 _INK = "#1d2b3a"
 _SURGE = "#b3261e"
@@ -25,10 +27,6 @@ _CONTROL = "#e8871e"
 _STONEWALL = "#4a6178"
 _ISLANDS = LinearSegmentedColormap.from_list(
     "trainopt_islands", ["#f7f3ea", "#e4eedb", "#c3e0cc", "#94c9b8", "#67b0a4"]
-)
-_DISCLAIMER = (
-    "This map advises; it does not replace the vendor's data, the anti-surge controller "
-    "or an engineer's judgement."
 )
 
 
@@ -144,7 +142,7 @@ def plot_map(
     fig.text(
         0.995,
         0.01,
-        textwrap.fill(_DISCLAIMER, 36, break_on_hyphens=False),
+        textwrap.fill(CAUTION, 36, break_on_hyphens=False),
         fontsize=7,
         color="#6b7480",
         ha="right",
@@ -160,7 +158,8 @@ def _efficiency_levels(efficiency: np.ndarray) -> np.ndarray:
     return np.arange(np.floor(low / step) * step, high, step).round(6)
 
 
-def write_fit_report(map_path: str | Path, out_dir: str | Path) -> dict[str, Path]:
+def write_fit_report(map_path: str | Path, out_dir: str | Path, *,
+                     overwrite: bool = False) -> dict[str, Path]:
     """Fit a map file and write its fit report and picture.
 
     Parameters
@@ -169,7 +168,10 @@ def write_fit_report(map_path: str | Path, out_dir: str | Path) -> dict[str, Pat
         A map file (YAML metadata, or CSV table with its YAML beside it); a map given as
         published coefficients is reported and drawn without residuals.
     out_dir : str or Path
-        Folder for the output (created if missing).
+        Folder for the output (created if missing), written as every command writes
+        (:mod:`trainopt.report.output_folder`): checked before the fit, complete or not at all.
+    overwrite : bool
+        Replace files of the same names (``--force``); otherwise they are refused.
 
     Returns
     -------
@@ -177,13 +179,24 @@ def write_fit_report(map_path: str | Path, out_dir: str | Path) -> dict[str, Pat
         ``report`` (text summary), ``picture`` (PNG) and, for fitted maps, ``points``
         (residuals per point, CSV) and ``lines`` (residuals per speed line, CSV).
     """
-    map_path, out_dir = Path(map_path), Path(out_dir)
+    map_path = Path(map_path)
+    stem = safe_name(map_path.stem)
+    names = {"report": f"{stem}_fit.txt", "picture": f"{stem}_map.png",
+             "points": f"{stem}_fit_points.csv", "lines": f"{stem}_fit_lines.csv"}
+    folder = OutputFolder(out_dir, overwrite=overwrite, option="--out")
+    folder.check(names.values())
     source = read_map_source(map_path)
     fit = None if isinstance(source, CompressorMap) else fit_map(source)
+    with folder.writing():
+        kinds = _write_fit_files(map_path, source, fit, folder, names)
+    return {kind: folder.written[names[kind]] for kind in kinds}
+
+
+def _write_fit_files(map_path: Path, source, fit: MapFit | None, folder: OutputFolder,
+                     names: dict[str, str]) -> list[str]:
+    """Write the fit report's files into the folder's temporary place; the kinds written."""
     m = source if fit is None else fit.map
-    out_dir.mkdir(parents=True, exist_ok=True)
-    stem = map_path.stem
-    paths = {"report": out_dir / f"{stem}_fit.txt", "picture": out_dir / f"{stem}_map.png"}
+    paths = {kind: folder.path(names[kind]) for kind in ("report", "picture")}
     text = [
         f"Map: {m.name}",
         f"File: {map_path}",
@@ -193,10 +206,10 @@ def write_fit_report(map_path: str | Path, out_dir: str | Path) -> dict[str, Pat
     if fit is None:
         text.append("Published coefficients: nothing fitted, no residuals.")
     else:
-        paths["points"] = out_dir / f"{stem}_fit_points.csv"
-        paths["lines"] = out_dir / f"{stem}_fit_lines.csv"
-        _display(fit.points).to_csv(paths["points"], index=False, float_format="%.6g")
-        _display(fit.lines).to_csv(paths["lines"], index=False, float_format="%.6g")
+        paths["points"] = folder.path(names["points"])
+        paths["lines"] = folder.path(names["lines"])
+        write_csv(_display(fit.points), paths["points"], float_format="%.6g")
+        write_csv(_display(fit.lines), paths["lines"], float_format="%.6g")
         text += _fit_text(fit)
     departure = _display(fan_law_departure(m)).astype({"speed [rpm]": int})
     text += [
@@ -207,12 +220,12 @@ def write_fit_report(map_path: str | Path, out_dir: str | Path) -> dict[str, Pat
         "",
         f"Surge control line drawn at {100 * DEFAULT_CONTROL_LINE_OFFSET:.0f} % of "
         "surge flow (common practice; each unit may set its own).",
-        _DISCLAIMER,
+        CAUTION,
     ]
-    paths["report"].write_text("\n".join(text) + "\n")
+    paths["report"].write_text("\n".join(text) + "\n", encoding="utf-8")
     fig = plot_map(m, points=None if fit is None else fit.points)
     fig.savefig(paths["picture"], dpi=130)
-    return paths
+    return list(paths)
 
 
 def _fit_text(fit: MapFit) -> list[str]:

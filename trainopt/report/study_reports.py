@@ -3,8 +3,9 @@
 :func:`envelope_report` and :func:`audit_report` are what the ``trainopt envelope`` and
 ``trainopt audit`` commands call; :mod:`~trainopt.report.html` and
 :mod:`~trainopt.report.tables` hold the parts for scripts that want them separately.
-Existing files are never replaced unless ``overwrite=True`` (``--force``), and the check
-comes before any work.
+Files are written the way every command writes (:mod:`trainopt.report.output_folder`):
+existing files are never replaced unless ``overwrite=True`` (``--force``), the check comes
+before any work, and the files appear in the folder only once all are complete.
 """
 
 from __future__ import annotations
@@ -12,7 +13,8 @@ from __future__ import annotations
 from pathlib import Path
 
 from trainopt.report.html import write_html
-from trainopt.report.tables import audit_tables, check_free, table_paths, write_tables
+from trainopt.report.output_folder import OutputFolder
+from trainopt.report.tables import audit_tables, table_paths, write_tables
 
 __all__ = ["audit_report", "envelope_report"]
 
@@ -47,16 +49,28 @@ def envelope_report(case_file, out_dir, *, offline=(), named=(), sweep: str | No
     from trainopt.case.loading import load_case
     from trainopt.studies.envelope import envelope_study
 
-    out = Path(out_dir)
     names = _ENVELOPE_TABLES + (("condition_sweep",) if sweep else ())
-    check_free([out / "envelope.html", *table_paths(names, out, excel).values()], overwrite)
+    folder = _checked(out_dir, "envelope.html", names, excel, overwrite)
     case = load_case(case_file)
     study = envelope_study(case, offline=offline, named=named, sweep=sweep, points=points,
                            workers=workers, scheduler=scheduler, progress=progress)
-    written = write_tables(study.tables(), out, excel=excel, overwrite=overwrite)
-    written["html"] = write_html(out / "envelope.html", case=case, envelope=study,
-                                 overwrite=overwrite)
-    return study, written
+    with folder.writing():
+        staged = write_tables(study.tables(), folder.stage, excel=excel, overwrite=True)
+        staged["html"] = write_html(folder.path("envelope.html"), case=case, envelope=study,
+                                    overwrite=True)
+    return study, _final(staged, folder)
+
+
+def _checked(out_dir, html: str, names, excel: bool, overwrite: bool) -> OutputFolder:
+    """The output folder, checked for the files a study writes before any work."""
+    folder = OutputFolder(out_dir, overwrite=overwrite, option="--out")
+    folder.check([html, *(p.name for p in table_paths(names, Path("."), excel).values())])
+    return folder
+
+
+def _final(staged: dict, folder: OutputFolder) -> dict:
+    """Kind -> final path, from kind -> path in the (now removed) temporary folder."""
+    return {kind: folder.target / Path(path).name for kind, path in staged.items()}
 
 
 def audit_report(case_file, history_file, columns_file, out_dir, *, binning=None,
@@ -86,15 +100,14 @@ def audit_report(case_file, history_file, columns_file, out_dir, *, binning=None
     from trainopt.studies.audit import audit_history
     from trainopt.studies.history_reader import read_history
 
-    out = Path(out_dir)
-    check_free([out / "audit.html", *table_paths(_AUDIT_TABLES, out, excel).values()],
-               overwrite)
+    folder = _checked(out_dir, "audit.html", _AUDIT_TABLES, excel, overwrite)
     case = load_case(case_file)
     history = read_history(history_file, columns_file, case, sort=sort)
     result = audit_history(case, history, binning=binning, objective=objective,
                            workers=workers, scheduler=scheduler, progress=progress)
     tables = audit_tables(result)
-    written = write_tables(tables, out, excel=excel, overwrite=overwrite)
-    written["html"] = write_html(out / "audit.html", case=case, audit=result,
-                                 audit_tables=tables, overwrite=overwrite)
-    return result, written
+    with folder.writing():
+        staged = write_tables(tables, folder.stage, excel=excel, overwrite=True)
+        staged["html"] = write_html(folder.path("audit.html"), case=case, audit=result,
+                                    audit_tables=tables, overwrite=True)
+    return result, _final(staged, folder)

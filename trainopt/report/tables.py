@@ -2,7 +2,9 @@
 
 Every column name carries its unit (``recycle_MWh``, ``co2_t``); times are written in the
 history's time zone, named in the column (``time_UTC``). Nothing the user already has is
-overwritten unless asked: :func:`check_free` refuses existing files.
+overwritten unless asked: :func:`check_free` refuses existing files. Each CSV ends with the
+caution as a ``#`` line (read with ``pandas.read_csv(path, comment="#")``); a workbook opens
+on a ``caution`` sheet.
 """
 
 from __future__ import annotations
@@ -12,7 +14,9 @@ from pathlib import Path
 import numpy as np
 import pandas as pd
 
+from trainopt.caution import CAUTION
 from trainopt.errors import InputError
+from trainopt.report.output_folder import write_csv
 
 _ENERGY = {  # unit_hours column -> monthly column, all as energy over the row's interval
     "shaft_power_kW": "shaft_MWh", "useful_power_kW": "useful_MWh",
@@ -119,8 +123,8 @@ def check_free(paths, overwrite: bool) -> None:
         return
     for path in paths:
         if Path(path).exists():
-            raise InputError(str(path), "exists already", "pass overwrite=True (--force) or "
-                             "choose another output folder (--out)")
+            raise InputError(str(path), "exists already", "pass --force (overwrite=True) to "
+                             "replace it or choose another folder")
 
 
 def _for_file(frame: pd.DataFrame) -> pd.DataFrame:
@@ -160,10 +164,12 @@ def write_tables(tables: dict[str, pd.DataFrame], out_dir: str | Path, *, excel:
     out.mkdir(parents=True, exist_ok=True)
     if excel:
         with pd.ExcelWriter(paths["workbook"], engine="openpyxl") as writer:
+            pd.DataFrame({"caution": [CAUTION]}).to_excel(writer, sheet_name="caution",
+                                                          index=False)
             for name, frame in tables.items():
                 if name not in paths:
                     _for_file(frame).to_excel(writer, sheet_name=name[:31], index=False)
     for name, frame in tables.items():
         if name in paths:
-            _for_file(frame).to_csv(paths[name], index=False)
+            write_csv(_for_file(frame), paths[name])
     return paths

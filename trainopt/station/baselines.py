@@ -1,7 +1,6 @@
 """The usual load-sharing practices, evaluated on the true model for comparison.
 
-Each baseline keeps the optimum's commitment (the same units run) and splits the same
-demand by a rule:
+Each rule splits the same demand across a set of running units:
 
 - **equal flow**: every running unit delivers the same net mass flow;
 - **equal speed**: every running unit turns at the same fraction of its maximum speed;
@@ -9,72 +8,57 @@ demand by a rule:
   control line, ``(Q - Q_scl) / Q_scl`` (the usual load-sharing practice of anti-surge
   systems; common practice).
 
-A rule that asks a unit for more than it can carry is reported infeasible with the
-reason; a rule that asks for less than a unit's least flow makes it recycle.
+Each rule is applied twice (:func:`compare_baselines`): on the optimum's running set, and
+on every available unit, as a station does that runs all its machines on load-sharing
+control. The second comparison includes the value of choosing which units run.
+
+A rule that would put any unit past its largest flow (stonewall, maximum speed, driver
+power, discharge temperature, edge of the map) is infeasible, with the unit and the limit
+named: no unit is held at its largest flow while the others carry on. A rule that asks
+for less than a unit's least flow holds it on that end and makes it recycle, as an
+anti-surge controller would.
+
+Figures are compared in the unit of the objective solved (kW of shaft power or driver
+input, currency/h) with the shaft power beside them.
 """
 
 from __future__ import annotations
 
+from dataclasses import dataclass
+
 import numpy as np
 from scipy.optimize import brentq
 
+from trainopt.dispatch.reduction import LIMIT_NAMES
 from trainopt.station.reduced import evaluate_split
 
+SAMPLES = 80
+"""True-model samples per unit along its curve for the speed and margin rules [-]."""
 
-def _net_for_total(share, total: float, lo_x: float, hi_x: float):
-    """Find x with sum(share(x)) = total by bisection; share is non-decreasing in x."""
-    f_lo, f_hi = share(lo_x).sum() - total, share(hi_x).sum() - total
-    if f_lo >= 0:
-        return lo_x
-    if f_hi <= 0:
-        return hi_x
-    return brentq(lambda x: share(x).sum() - total, lo_x, hi_x, xtol=1e-12)
+RULE_WORDS = {"equal_speed": ("speed", "{:.1f} % of maximum speed", 100.0),
+              "equal_margin": ("control-line margin", "a control-line margin of {:.1f} %",
+                               100.0)}
 
 
-def baseline_splits(station, running: list[str], demand: float) -> dict[str, dict[str, float]]:
-    """Net flows [kg/s] per unit for each baseline rule.
+@dataclass(frozen=True)
+class RuleSplit:
+    """A rule's net flows [kg/s] per unit, or why the rule cannot be run.
 
-    Parameters
+    Attributes
     ----------
-    station : trainopt.station.reduced.Station
-    running : list of str
-        Units that run (the optimum's commitment).
-    demand : float
-        Station net flow [kg/s].
-
-    Returns
-    -------
-    dict
-        Rule name to {unit: net flow}.
+    flows : dict of str to float
+        Unit to net flow [kg/s]; empty when infeasible.
+    reason : str
+        Which unit the rule would put past which limit, in words; empty when it can run.
     """
-    running = list(dict.fromkeys(running))  # a series train has one row per section
-    curves = [station.curves[n] for n in running]
-    out = {"equal_flow": {n: demand / len(running) for n in running}}
 
-    # Equal speed: through-flow of each unit against speed, sampled along its curve.
-    samples, scl = [], []
-    for name, curve in zip(running, curves, strict=True):
-        m = np.linspace(curve.min_flow, curve.max_flow, 80)
-        fraction, margin = station.profile(name, m)
-        samples.append((fraction, m))
-        scl.append((margin, m))
+    flows: dict
+    reason: str = ""
 
-    def by_speed(x):
-        return np.array([np.interp(x, s, m) for s, m in samples])
-
-    x = _net_for_total(by_speed, demand, 0.0, 2.0)
-    out["equal_speed"] = dict(zip(running, by_speed(x) * _scale(by_speed(x), demand),
-                                  strict=True))
-
-    # Equal margin to the surge control line.
-    def by_margin(x):
-        return np.array([np.interp(x, d, m) for d, m in scl])
-
-    # search up to the largest sampled margin: wide maps reach several hundred per cent
-    x = _net_for_total(by_margin, demand, 0.0, max(float(np.max(d)) for d, _ in scl))
-    out["equal_margin"] = dict(zip(running, by_margin(x) * _scale(by_margin(x), demand),
-                                   strict=True))
-    return out
+    @property
+    def feasible(self) -> bool:
+        """Whether the rule can be run."""
+        return not self.reason
 
 
 def _scale(flows: np.ndarray, demand: float) -> float:
@@ -83,8 +67,196 @@ def _scale(flows: np.ndarray, demand: float) -> float:
     return demand / total if total > demand else 1.0
 
 
-def compare_baselines(station, optimum, demand: float) -> dict:
-    """Evaluate each baseline and the optimum's saving against it.
+def _limit_words(station, name: str) -> str:
+    curve = station.curves[name]
+    words = LIMIT_NAMES.get(curve.high_limit, str(curve.high_limit))
+    return words + (f" ({curve.high_section})" if getattr(curve, "high_section", "") else "")
+
+
+def _common_value_split(station, running, demand: float, rule: str, profiles) -> RuleSplit:
+    """Split by one common value x of a non-decreasing profile per unit.
+
+    Parameters
+    ----------
+    profiles : list of (numpy.ndarray, numpy.ndarray)
+        Per unit: the rule's quantity along its through-flows and those flows [kg/s],
+        from its least to its largest flow.
+    """
+    quantity, value_text, scale = RULE_WORDS[rule]
+    for name, (v, _) in zip(running, profiles, strict=True):
+        if not np.all(np.isfinite(v)):
+            return RuleSplit({}, f"{name}: its {quantity} is not known along its whole flow "
+                             "range (off the tested map), so the rule cannot be applied")
+    ups = [(np.maximum.accumulate(v), m) for v, m in profiles]
+
+    def share(x):
+        return np.array([np.interp(x, v, m) for v, m in ups])
+
+    tops = [float(v[-1]) for v, _ in ups]
+    first = int(np.argmin(tops))
+    x_top = tops[first]
+    most = share(x_top)
+    if most.sum() < demand * (1 - 1e-9):
+        name = running[first]
+        return RuleSplit({}, (
+            f"{name} reaches its largest flow, {station.curves[name].max_flow:.2f} kg/s set by "
+            f"the {_limit_words(station, name)}, at {value_text.format(scale * x_top)}; at "
+            f"that common {quantity} the units carry {most.sum():.2f} kg/s of the "
+            f"{demand:.2f} kg/s asked, and more would put {name} past its limit"))
+    x_low = min(0.0, min(float(v[0]) for v, _ in ups))
+    if share(x_low).sum() >= demand:
+        x = x_low
+    else:
+        x = brentq(lambda t: share(t).sum() - demand, x_low, x_top, xtol=1e-12)
+    flows = share(x)
+    flows = flows * _scale(flows, demand)
+    return RuleSplit(dict(zip(running, (float(f) for f in flows), strict=True)))
+
+
+def baseline_splits(station, running: list[str], demand: float) -> dict[str, RuleSplit]:
+    """Net flows [kg/s] per unit for each rule, or why the rule cannot be run.
+
+    Parameters
+    ----------
+    station : trainopt.station.reduced.Station
+    running : list of str
+        Units that run under the rule.
+    demand : float
+        Station net flow [kg/s].
+
+    Returns
+    -------
+    dict of str to RuleSplit
+        ``equal_flow``, ``equal_speed`` and ``equal_margin``.
+    """
+    running = list(dict.fromkeys(running))  # a series train has one row per section
+    out = {}
+    flow = demand / len(running)
+    over = [n for n in running if flow > station.curves[n].max_flow * (1 + 1e-9)]
+    out["equal_flow"] = (RuleSplit({n: flow for n in running}) if not over else RuleSplit(
+        {}, f"{over[0]} cannot carry {flow:.2f} kg/s: its largest through-flow today is "
+        f"{station.curves[over[0]].max_flow:.2f} kg/s, set by the "
+        f"{_limit_words(station, over[0])}"))
+    speed, margin = [], []
+    for name in running:
+        curve = station.curves[name]
+        m = np.linspace(curve.min_flow, curve.max_flow, SAMPLES)
+        fraction, scl = station.profile(name, m)
+        speed.append((np.asarray(fraction, float), m))
+        margin.append((np.asarray(scl, float), m))
+    out["equal_speed"] = _common_value_split(station, running, demand, "equal_speed", speed)
+    out["equal_margin"] = _common_value_split(station, running, demand, "equal_margin", margin)
+    return out
+
+
+def objective_unit(objective: str, currency: str) -> str:
+    """The unit the objective is compared in: ``kW``, or ``<currency>/h`` for cost."""
+    return f"{currency}/h" if objective == "cost" else "kW"
+
+
+def _objective_display(result) -> float:
+    """The result's objective in its display unit: kW, or currency/h for cost."""
+    value = result.objective_value()
+    return value * 3600.0 if result.objective == "cost" else value / 1e3
+
+
+def contrast_in_words(objective: str, objective_saving: float, shaft_saving_kW: float,
+                      input_saving_kW: float, cost_saving: float, cost_unit: str,
+                      against: str = "the rule", energy_unit: str = "kW") -> str:
+    """Say why the savings' signs differ, or nothing when they agree.
+
+    Parameters
+    ----------
+    objective : str
+        ``shaft_power``, ``energy_input`` or ``cost``: what the optimum minimised.
+    objective_saving : float
+        The other split's objective less the optimum's, in the objective's unit.
+    shaft_saving_kW, input_saving_kW : float
+        The other split's shaft power and driver input less the optimum's [kW] (or
+        energies in any one unit).
+    cost_saving : float
+        The other split's cost less the optimum's, in ``cost_unit``.
+    cost_unit : str
+        ``USD/h`` for rates, ``USD`` for a period's totals.
+    against : str
+        What the optimum is compared with, for the sentence.
+    energy_unit : str
+        The unit of the shaft and driver-input figures (``kW``; ``MWh`` for energies).
+
+    Returns
+    -------
+    str
+        Empty when every saving has the objective's sign.
+    """
+    if objective_saving < 0:
+        return ""
+    words = []
+    if shaft_saving_kW < 0:
+        words.append(f"{-shaft_saving_kW:.0f} {energy_unit} more shaft power")
+    if input_saving_kW < 0 and objective != "energy_input":
+        words.append(f"{-input_saving_kW:.0f} {energy_unit} more driver input")
+    if cost_saving < 0 and objective != "cost":
+        words.append(f"{-cost_saving:.0f} {cost_unit} more cost")
+    if not words:
+        return ""
+    aim = {"shaft_power": "least shaft power", "energy_input": "least driver input",
+           "cost": "least cost"}[objective]
+    why = []
+    if objective == "cost":
+        why.append("it loads the drivers whose energy is cheaper at the case's prices, even "
+                   "where they use more of it")
+    if objective == "shaft_power" and input_saving_kW < 0:
+        why.append("the compressors it loads need less shaft power, but their drivers turn "
+                   "less of their input into shaft power")
+    if objective == "energy_input" and shaft_saving_kW < 0:
+        why.append("it loads the more efficient drivers, even where their compressors take "
+                   "more shaft power")
+    if objective != "cost" and cost_saving < 0:
+        why.append("at the case's prices the energy it adds costs more than the energy it "
+                   "saves")
+    if objective != "cost" and cost_saving >= 0 and input_saving_kW < 0:
+        why.append(f"the extra input is the cheaper kind, so it still costs {cost_saving:.0f} "
+                   f"{cost_unit} less")
+    return (f"the optimum is chosen for {aim}; against {against} it uses "
+            f"{' and '.join(words)}: {'; '.join(why)}")
+
+
+def _entry(station, optimum, split: RuleSplit, rule: str, running: list[str]) -> dict:
+    currency = station.case.economics.currency
+    entry = {"status": "feasible" if split.feasible else "infeasible",
+             "reason": split.reason, "running_units": list(running),
+             "net_mass_flow_kg_s": {k: float(v) for k, v in split.flows.items()},
+             "objective_unit": objective_unit(station.objective, currency)}
+    if not split.feasible:
+        return entry
+    res = evaluate_split(station, split.flows)
+    if res.status == "infeasible":
+        entry.update(status="infeasible", reason=res.reason)
+        return entry
+    power, best_power = res.total_shaft_power, optimum.total_shaft_power
+    value, best_value = _objective_display(res), _objective_display(optimum)
+    shaft_saving = (power - best_power) / 1e3
+    input_saving = res.total("driver_input_kW") - optimum.total("driver_input_kW")
+    cost_saving = res.total("cost_per_h") - optimum.total("cost_per_h")
+    entry.update({
+        "total_shaft_power_kW": power / 1e3,
+        "total_driver_input_kW": res.total("driver_input_kW"),
+        "total_cost_per_h": res.total("cost_per_h"),
+        "total_recycle_kg_s": res.total("recycle_kg_s"),
+        "saving_kW": shaft_saving,
+        "saving_pct": 100.0 * (power - best_power) / power if power > 0 else 0.0,
+        "total_objective": value,
+        "objective_saving": value - best_value,
+        "objective_saving_pct": 100.0 * (value - best_value) / value if value > 0 else 0.0,
+        "note": contrast_in_words(station.objective, value - best_value, shaft_saving,
+                                  input_saving, cost_saving, f"{currency}/h",
+                                  rule.replace("_", " ")),
+    })
+    return entry
+
+
+def compare_baselines(station, optimum, demand: float, units: list[str] | None = None) -> dict:
+    """Evaluate each rule and the optimum's saving against it.
 
     Parameters
     ----------
@@ -92,31 +264,40 @@ def compare_baselines(station, optimum, demand: float) -> dict:
     optimum : trainopt.station.result.StationResult
     demand : float
         [kg/s].
+    units : list of str, optional
+        The units the rules run; the optimum's running set by default.
 
     Returns
     -------
     dict
-        Per rule: ``status``, ``reason``, objective and shaft power totals, and the
-        optimum's saving in kW and per cent.
+        Per rule: ``status``, ``reason``, ``running_units``, the split, the objective,
+        shaft power, driver input and cost totals, and the optimum's savings (see
+        ``docs/results.md``).
     """
+    if units is None:
+        units = list(dict.fromkeys(r["name"] for r in optimum.units.to_dict("records")
+                                   if r.get("running")))
+    if not units:
+        return {}
+    return {rule: _entry(station, optimum, split, rule, units)
+            for rule, split in baseline_splits(station, units, demand).items()}
+
+
+def available_units(station) -> list[str]:
+    """Units a station could run today: not offline, and able to meet today's duty."""
+    return [n for n, c in station.curves.items() if c.feasible]
+
+
+def compare_all_units(station, optimum, demand: float, running_set: dict | None = None
+                      ) -> dict:
+    """Each rule on every available unit (a station running every machine on load sharing).
+
+    ``running_set`` (the comparison on the optimum's running set) is reused when the
+    optimum already runs every available unit.
+    """
+    units = available_units(station)
     running = list(dict.fromkeys(r["name"] for r in optimum.units.to_dict("records")
                                  if r.get("running")))
-    if not running:
-        return {}
-    best_power = optimum.total_shaft_power
-    out = {}
-    for rule, split in baseline_splits(station, running, demand).items():
-        res = evaluate_split(station, split)
-        entry = {"status": "feasible" if res.status != "infeasible" else "infeasible",
-                 "reason": res.reason,
-                 "net_mass_flow_kg_s": {k: float(v) for k, v in split.items()}}
-        if res.status != "infeasible":
-            power = res.total_shaft_power
-            entry.update({
-                "total_shaft_power_kW": power / 1e3,
-                "total_recycle_kg_s": res.total("recycle_kg_s"),
-                "saving_kW": (power - best_power) / 1e3,
-                "saving_pct": 100.0 * (power - best_power) / power if power > 0 else 0.0,
-            })
-        out[rule] = entry
-    return out
+    if running_set is not None and set(running) == set(units):
+        return running_set
+    return compare_baselines(station, optimum, demand, units)

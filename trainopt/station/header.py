@@ -40,7 +40,7 @@ from trainopt.machines.train import Train, UnitStatus
 from trainopt.machines.train_operation import TrainConditions, gas_table_for
 from trainopt.physics.compression import HeadBasis
 from trainopt.physics.gas_table import GasTable
-from trainopt.station.baselines import compare_baselines
+from trainopt.station.baselines import compare_all_units, compare_baselines, objective_unit
 from trainopt.station.reduced import (
     Station,
     chosen_objective,
@@ -367,6 +367,7 @@ def evaluate_header(case: Case, demand: float, pressure: float,
                   header.cooler.outlet_temperature - 273.15, **(extra or {})}
     if baselines:
         out.baselines = _baselines(stations, results, demand, out)
+        out.baselines_all_units = _baselines(stations, results, demand, out, all_units=True)
     return out
 
 
@@ -403,8 +404,11 @@ def evaluate_header_split(case: Case, net: Mapping[str, float], pressure: float
     for side in SIDES:
         group = group_case(case, side, pressure)
         mine = {n: v for n, v in net.items() if any(t.name == n for t in group.trains)}
-        offline = [t.name for t in group.trains if t.name not in mine]
-        result = evaluate_split(Station(group, offline), mine)
+        left_out = [t.name for t in group.trains if t.name not in mine]
+        station = Station(group, left_out)
+        for name in left_out:  # stopped (not reduced), not offline: the case's status
+            station.status[name] = group.train(name).status
+        result = evaluate_split(station, mine)
         if result.status == "infeasible":
             return StationResult.infeasible(case, totals["upstream"], f"{side} group: "
                                             f"{result.reason}", case.objective)
@@ -421,21 +425,36 @@ def evaluate_header_split(case: Case, net: Mapping[str, float], pressure: float
     return out
 
 
-def _baselines(stations, results, demand: float, optimum: StationResult) -> dict:
-    """Each load-sharing rule applied in both groups at the optimum's header pressure."""
-    per_side = {side: compare_baselines(stations[side], results[side], demand)
+def _baselines(stations, results, demand: float, optimum: StationResult,
+               all_units: bool = False) -> dict:
+    """Each load-sharing rule applied in both groups at the optimum's header pressure.
+
+    With ``all_units`` the rules run every available unit of each group, otherwise the
+    optimum's running units.
+    """
+    per_side = {side: (compare_all_units(stations[side], results[side], demand) if all_units
+                       else compare_baselines(stations[side], results[side], demand))
                 for side in SIDES}
     out = {}
     best = optimum.total_shaft_power
+    currency = optimum.case.economics.currency
+    best_value = optimum.objective_value() * (3600.0 if optimum.objective == "cost" else 1e-3)
     for rule in per_side["upstream"]:
         parts = [per_side[side].get(rule, {}) for side in SIDES]
+        units = [n for p in parts for n in p.get("running_units", [])]
         if all(p.get("status") == "feasible" for p in parts):
             power = sum(p["total_shaft_power_kW"] for p in parts) * 1e3
-            out[rule] = {"status": "feasible", "reason": "",
+            value = sum(p["total_objective"] for p in parts)
+            out[rule] = {"status": "feasible", "reason": "", "running_units": units,
+                         "objective_unit": objective_unit(optimum.objective, currency),
+                         "total_objective": value,
+                         "objective_saving": value - best_value,
+                         "objective_saving_pct": (100.0 * (value - best_value) / value
+                                                  if value > 0 else 0.0),
                          "total_shaft_power_kW": power / 1e3,
                          "saving_kW": (power - best) / 1e3,
                          "saving_pct": 100.0 * (power - best) / power if power > 0 else 0.0}
         else:
-            out[rule] = {"status": "infeasible", "reason": "; ".join(
+            out[rule] = {"status": "infeasible", "running_units": units, "reason": "; ".join(
                 p.get("reason", "") for p in parts if p.get("status") != "feasible")}
     return out

@@ -12,6 +12,7 @@ from dataclasses import dataclass, field
 import numpy as np
 import pandas as pd
 
+from trainopt.caution import CAUTION  # the shared wording, kept where it always was
 from trainopt.machines.maps import stonewall_margin
 from trainopt.physics.compression import compress
 
@@ -20,8 +21,7 @@ PER_TRAIN_COLUMNS = ("net_mass_flow_kg_s", "through_mass_flow_kg_s", "recycle_kg
                      "train_driver_input_kW")
 """Columns that repeat a train's value on each of its section rows (counted once in sums)."""
 
-CAUTION = ("Advisory only: trainopt does not replace the anti-surge controller, the "
-           "vendor's data or an engineer's judgement; follow local codes and licensed practice.")
+__all__ = ["CAUTION", "PER_TRAIN_COLUMNS", "StationResult", "unit_rows"]
 
 
 def _pct(x: float) -> float:
@@ -127,6 +127,9 @@ class StationResult:
         and ``docs/series.md``).
     header : dict
         For a station with a shared interstage header: its pressure and the search.
+    baselines, baselines_all_units : dict
+        The load-sharing rules on the optimum's running set, and on every available unit
+        (:mod:`trainopt.station.baselines`).
     """
 
     case: object
@@ -138,6 +141,7 @@ class StationResult:
     solver: dict = field(default_factory=dict)
     baselines: dict = field(default_factory=dict)
     header: dict = field(default_factory=dict)
+    baselines_all_units: dict = field(default_factory=dict)
 
     @classmethod
     def from_rows(cls, case, demand: float, rows: list[dict], objective: str) -> StationResult:
@@ -211,6 +215,8 @@ class StationResult:
             out["solver"] = self.solver
         if self.baselines:
             out["baselines"] = self.baselines
+        if self.baselines_all_units:
+            out["baselines_all_units"] = self.baselines_all_units
         if self.header:
             out["interstage_header"] = self.header
         return out

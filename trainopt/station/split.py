@@ -12,12 +12,14 @@ from __future__ import annotations
 
 from collections.abc import Iterable, Mapping
 
+import numpy as np
+
 from trainopt.case.loading import Case
 from trainopt.dispatch.solve import solve_dispatch
 from trainopt.errors import InputError
 from trainopt.machines.train import UnitStatus
 from trainopt.physics.units import Kind, parse_flow, parse_quantity
-from trainopt.station.baselines import compare_baselines
+from trainopt.station.baselines import compare_all_units, compare_baselines
 from trainopt.station.header import evaluate_header_split, optimize_header
 from trainopt.station.reduced import Station, evaluate_split, requested_demand, station_result
 from trainopt.station.result import StationResult
@@ -74,10 +76,44 @@ def optimize(case: Case, demand=None, offline: Iterable[str] = (), objective: st
                      "solve_seconds": dispatch.solve_seconds,
                      "mip_gap": dispatch.mip_gap_achieved,
                      "breakpoint_error_W": {n: c.error_bound for n, c in station.curves.items()},
+                     "objective_error_bound": {n: objective_error_bound(station, n)
+                                               for n, c in station.curves.items()
+                                               if c.feasible},
+                     "objective_unit": ("W" if station.objective != "cost" else
+                                        f"{case.economics.currency}/s"),
                      "convex": {n: c.convex for n, c in station.curves.items()}}
     if baselines:
         result.baselines = compare_baselines(station, result, m_demand)
+        result.baselines_all_units = compare_all_units(station, result, m_demand,
+                                                       result.baselines)
     return result
+
+
+def objective_error_bound(station: Station, name: str) -> float:
+    """Largest gap between a unit's piecewise-linear objective and its true sample.
+
+    The breakpoints are chosen on shaft power (:mod:`trainopt.dispatch.reduction`); the
+    dispatch model interpolates the objective between them. For ``energy_input`` and
+    ``cost`` the driver's curve bends the objective differently, so its own gap is
+    measured here on the same fine true-model sample.
+
+    Parameters
+    ----------
+    station : Station
+    name : str
+        A unit with a feasible curve.
+
+    Returns
+    -------
+    float
+        [W] for ``shaft_power`` and ``energy_input``, [currency/s] for ``cost``.
+    """
+    curve = station.curves[name]
+    if station.objective == "shaft_power":
+        return float(curve.error_bound)
+    exact = station.curve_cost(name, sample=True)
+    chords = np.interp(curve.sample_flow, curve.mass_flow, station.curve_cost(name))
+    return float(np.max(np.abs(chords - exact)))
 
 
 SPLIT_TOLERANCE = 1e-3
@@ -90,15 +126,17 @@ def evaluate(case: Case, split: Mapping[str, object], demand=None) -> StationRes
     Parameters
     ----------
     case : Case
+    split : mapping of str to str or float
+        Unit (or train) name to net mass flow [kg/s] (or a flow string with its unit).
+        Units absent are stopped (they keep the case's status; they are not offline).
+        Each running unit gets the least recycle it needs. For
+        a station with a shared interstage header, the key ``interstage_header`` gives
+        its pressure (``"48 bar"`` or [Pa]).
     demand : str or float, optional
         The station throughput the split must add up to (a flow with its unit, or a mass
         flow [kg/s]); when given, a split whose net flows differ from it by more than
-        :data:`SPLIT_TOLERANCE` is refused. The command line passes the case's demand.
-    split : mapping of str to str or float
-        Unit (or train) name to net mass flow [kg/s] (or a flow string with its unit).
-        Units absent are stopped. Each running unit gets the least recycle it needs. For
-        a station with a shared interstage header, the key ``interstage_header`` gives
-        its pressure (``"48 bar"`` or [Pa]).
+        :data:`SPLIT_TOLERANCE` is refused. By default the split's own sum is the demand
+        (the case's demand is not imposed on a split).
 
     Returns
     -------
@@ -131,7 +169,7 @@ def evaluate(case: Case, split: Mapping[str, object], demand=None) -> StationRes
             raise InputError("split", f"the shares add up to {total:.3f} kg/s but the demand is "
                              f"{target:.3f} kg/s", "make the shares add up to the demand, or "
                              "state the demand they meet (--demand)")
-    offline = [t.name for t in case.trains if t.name not in flows]
+    left_out = [t.name for t in case.trains if t.name not in flows]
     for name in flows:
         if case.train(name).status is UnitStatus.OFFLINE:
             raise InputError(f"split.{name}", "the case marks this unit offline",
@@ -141,7 +179,11 @@ def evaluate(case: Case, split: Mapping[str, object], demand=None) -> StationRes
                     parse_quantity(header_pressure, Kind.PRESSURE, "split.interstage_header",
                                    atmospheric=case.atmospheric_pressure))
         return evaluate_header_split(case, flows, pressure)
-    station = Station(case, offline)
+    # units left out of the split are not reduced (they do not run), but they are stopped,
+    # not offline: they keep the status the case gives them
+    station = Station(case, left_out)
+    for name in left_out:
+        station.status[name] = case.train(name).status
     return evaluate_split(station, flows)
 
 

@@ -154,7 +154,8 @@ def audit_history(case, history: History, *, binning: Binning | None = None,
                          "check the column mapping and the file against the skip reasons")
     groups = condition_bins(frame, binning)
     transport = dataclasses.replace(case, gas=None)
-    data_columns = [c for c in frame.columns if "." in c]
+    # per-unit columns ("A.flow") and the station's flow meter, for the flow-balance check
+    data_columns = [c for c in frame.columns if "." in c or c == "station_flow"]
     tasks, bins = [], []
     for number, (key, pos) in enumerate(groups):
         sub = frame.iloc[pos]
@@ -179,4 +180,4 @@ def audit_history(case, history: History, *, binning: Binning | None = None,
     for reason, count in hours.loc[hours["status"] != "audited", "status"].value_counts().items():
         skipped[str(reason)] = skipped.get(str(reason), 0) + int(count)
     return AuditResult(case, hours, units, skipped, len(frame) + len(history.skipped_rows),
-                       history.interval, bins, binning, seconds)
+                       history.interval, bins, binning, seconds, objective)

@@ -43,6 +43,9 @@ class AuditResult:
         The condition bins: gas label, mean conditions, warmest ambient, rows.
     seconds : float
         Wall time of the bin work [s].
+    objective : str
+        What the optimum minimised (``shaft_power``, ``energy_input``, ``cost``); the
+        case's when not given.
     """
 
     case: object
@@ -54,6 +57,7 @@ class AuditResult:
     bins: pd.DataFrame
     binning: Binning
     seconds: float = 0.0
+    objective: str = ""
 
     @property
     def audited(self) -> pd.DataFrame:
@@ -89,7 +93,23 @@ class AuditResult:
             "rows_flagged": int((self.hours["flags"] > 0).sum()),
             "bins": len(self.bins),
             "seconds": self.seconds,
-        }
+        } | self._objective_totals(h, hours)
+
+    def _objective_totals(self, h: pd.DataFrame, hours: float) -> dict:
+        """What the optimum saves in its own objective's unit, and why the signs differ."""
+        from trainopt.station.baselines import contrast_in_words
+
+        objective = self.objective or self.case.objective
+        currency = self.case.economics.currency
+        shaft = float(h["avoidable_power_kW"].sum()) * hours / 1e3
+        driver = float(h["avoidable_driver_input_kW"].sum()) * hours / 1e3
+        cost = float((h["model_cost_per_h"] - h["optimum_cost_per_h"]).sum()) * hours
+        value, unit = {"shaft_power": (shaft, "MWh"), "energy_input": (driver, "MWh"),
+                       "cost": (cost, currency)}[objective]
+        note = contrast_in_words(objective, value, shaft, driver, cost, currency,
+                                 "the recorded operation", energy_unit="MWh")
+        return {"objective": objective, "avoidable_objective": value,
+                "objective_unit": unit, "avoidable_note": note}
 
     def summary(self) -> str:
         """Totals and skip counts as text, ending with the caution."""
@@ -106,10 +126,18 @@ class AuditResult:
             f"Driver input {t['driver_input_MWh']:.0f} MWh (fuel {t['fuel_GJ']:.0f} GJ); "
             f"avoidable {t['avoidable_driver_input_MWh']:.0f} MWh, {t['avoidable_cost']:.0f} "
             f"{t['currency']}, {t['avoidable_co2_t']:.0f} t CO2",
+            f"The optimum minimises {_OBJECTIVE_WORDS[t['objective']]}: against the recorded "
+            f"operation it saves {t['avoidable_objective']:.0f} {t['objective_unit']}"
+            + (f" of {_OBJECTIVE_WORDS[t['objective']]}" if t["objective"] != "cost" else "")
+            + "." + (f" {t['avoidable_note'][0].upper()}{t['avoidable_note'][1:]}."
+                     if t["avoidable_note"] else ""),
             "Skipped rows:", describe_skips(self.skipped), "", CAUTION,
         ]
         return "\n".join(lines)
 
+
+_OBJECTIVE_WORDS = {"shaft_power": "shaft energy", "energy_input": "driver input",
+                    "cost": "cost"}
 
 _UNIT_COLUMNS = {  # audit field -> (column, factor to the column's unit)
     "net": ("net_mass_flow_kg_s", 1.0), "through": ("through_mass_flow_kg_s", 1.0),

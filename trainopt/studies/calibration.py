@@ -343,7 +343,9 @@ def calibrated_case_text(result: CalibrationResult, out_dir: str | Path) -> str:
         entry["points"] = int(r.points)
         entry["excluded_rows"] = int(r.excluded_rows)
         unit["calibration"] = entry
+    from trainopt.caution import CAUTION
+
     head = (f"# Calibrated from {source.name} by 'trainopt calibrate': the as-new maps times "
             "each unit's\n# calibration factors (docs/calibration.md). The maps are not "
-            "changed.\n")
+            f"changed.\n# {CAUTION}\n")
     return head + yaml.safe_dump(data, sort_keys=False, allow_unicode=True)

@@ -68,6 +68,11 @@ def service_sets(case, offline=(), named=()) -> list[tuple[str, tuple[str, ...]]
     for name in list(offline) + [n for group in named for n in group]:
         if name not in names:
             raise InputError("unit", f"no unit named '{name}'", f"use one of {', '.join(names)}")
+    for group in named:  # a unit cannot be both out of service and in a named set
+        both = sorted(set(group) & set(offline), key=names.index)
+        if both:
+            raise InputError("service set", f"{', '.join(both)} is also taken offline",
+                             "drop it from the offline units or from the set")
     out_of_service = set(offline) | {t.name for t in case.trains
                                      if t.status is UnitStatus.OFFLINE}
     available = tuple(n for n in names if n not in out_of_service)

@@ -45,17 +45,27 @@ class _Reader:
             self.bad[reason] = previous | mask
 
     def numbers(self, column: str, key: str, required: bool = True) -> np.ndarray:
+        """A column's numbers; every bad one marks its row under a reason naming the column.
+
+        Text that is not a number and non-finite values (``inf``, ``-inf``) are bad in every
+        column; a blank cell is bad only in a ``required`` column (an optional meter that
+        recorded nothing is left as NaN, not guessed).
+        """
         text = self.raw[column]
+        where = f"(column '{column}')"
         if not pd.api.types.is_numeric_dtype(text):
             text = text.astype(str).str.strip()
             empty = text.isin(["", "nan", "NaN", "None", "null", "NULL"]).to_numpy()
             values = pd.to_numeric(text.where(~empty), errors="coerce").to_numpy(float)
+            unreadable = ~empty & np.isnan(values)
         else:
             values = text.to_numpy(dtype=float)
             empty = np.isnan(values)
+            unreadable = np.zeros(len(values), bool)
         if required:
-            self._mark(f"{key}: missing", empty)
-            self._mark(f"{key}: not a number", ~empty & ~np.isfinite(values))
+            self._mark(f"{key}: missing {where}", empty)
+        self._mark(f"{key}: not a number {where}", unreadable)
+        self._mark(f"{key}: not finite {where}", np.isinf(values))
         return np.where(np.isfinite(values), values, np.nan)
 
     def quantity(self, spec: Column, kind: Kind, key: str, required: bool = True) -> np.ndarray:
@@ -67,19 +77,17 @@ class _Reader:
             elif kind is Kind.TEMPERATURE:
                 self._mark(f"{key}: outside 150 K to 600 K", (x < 150) | (x > 600))
             else:
-                x = self._negatives(x, key, required)
+                x = self._negatives(x, key, spec.column)
         return x
 
-    def _negatives(self, x: np.ndarray, key: str, required: bool) -> np.ndarray:
+    def _negatives(self, x: np.ndarray, key: str, column: str) -> np.ndarray:
+        """Small negatives (meter drift) read as zero; larger ones mark the row."""
         finite = np.abs(x[np.isfinite(x)])
         scale = float(np.percentile(finite, 99)) if finite.size else 0.0
         with np.errstate(invalid="ignore"):
             drift = (x < 0) & (x >= -NEGATIVE_ZERO_FRACTION * scale)
             very = x < -NEGATIVE_ZERO_FRACTION * scale
-        if required:
-            self._mark(f"{key}: negative", very)
-        else:
-            x = np.where(very, np.nan, x)
+        self._mark(f"{key}: negative (column '{column}')", very)
         return np.where(drift, 0.0, x)
 
     def flow(self, spec: Column, key: str):
@@ -89,7 +97,7 @@ class _Reader:
         reference = None
         if flow.basis is FlowBasis.STANDARD_VOLUME:
             reference = next(k for k, v in _references().items() if v == flow.reference)
-        x = self._negatives(flow.value * self.numbers(spec.column, key), key, True)
+        x = self._negatives(flow.value * self.numbers(spec.column, key), key, spec.column)
         return x, (flow.basis, reference)
 
     def valve(self, spec: ValveColumn, key: str) -> np.ndarray:

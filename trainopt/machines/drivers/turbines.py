@@ -76,7 +76,9 @@ class GasTurbine(_FuelBurning, Driver):
     temperature_lapse : float
         Fractional loss of power per kelvin above 15 °C (gain below) [1/K]; default 0.007.
     site_elevation : float
-        Site elevation [m]; power scales with standard-atmosphere pressure. Default 0.
+        Site elevation [m]; power scales with standard-atmosphere pressure. Default 0 here;
+        a case file gives the site's (``site.elevation`` or ``site.atmospheric_pressure``)
+        unless the driver states its own (:mod:`trainopt.case.loading`).
     speed_power_coefficient : float
         c in the power-turbine speed parabola [-], in [0, 1]; default 1.0.
     no_load_fuel_fraction : float
