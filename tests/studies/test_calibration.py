@@ -186,3 +186,20 @@ def test_open_recycle_valve_without_recycle_flow_is_left_out_and_counted(short_f
     # every one of the 20 is counted as an open valve
     assert ex.loc[("A", "recycle valve open, recycle flow unknown")] == 20
     assert ("B", "recycle valve open, recycle flow unknown") not in ex.index
+
+
+def test_row_by_row_mach_correction_is_the_maps_mach_similarity(demo_case):
+    from trainopt.studies.calibration_fit import predict
+
+    cmap = demo_case.train("C").sections[0].compressor_map
+    q, n = cmap.tested_grid(4, 5)
+    s = 1.04  # a_test / a: a service gas 4 % slower in sound speed than the test's
+    points = pd.DataFrame({"volume_flow": (q / s).ravel(), "speed": np.repeat(n[:, 0] / s, 5),
+                           "sound_speed_ratio": s})
+    head, eta = predict(cmap, points, 1.0, 1.0, 1.0)
+    similar = cmap.mach_similar(s)  # the map's own correction (docs/maps.md)
+    expected_head = similar.head(points["volume_flow"], points["speed"], warn=False)
+    expected_eta = similar.efficiency(points["volume_flow"], points["speed"], warn=False)
+    # the same monomials evaluated two ways: rounding only
+    np.testing.assert_allclose(head, expected_head, rtol=1e-12)
+    np.testing.assert_allclose(eta, expected_eta, rtol=1e-12)
