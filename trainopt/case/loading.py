@@ -16,6 +16,7 @@ from pydantic import BaseModel, ValidationError
 
 from trainopt.case.gas_file import read_yaml
 from trainopt.case.schema import (
+    CalibrationSchema,
     CaseSchema,
     CoolerSchema,
     GasSchema,
@@ -26,6 +27,7 @@ from trainopt.case.schema import (
 )
 from trainopt.case.unit_rules import unit_rules
 from trainopt.errors import InputError
+from trainopt.machines.degradation import Degradation, DegradationWarning, degraded_map
 from trainopt.machines.drivers import GasTurbine, driver_from_dict
 from trainopt.machines.train import (
     Cooler,
@@ -203,7 +205,7 @@ def _describe(loc) -> str | None:
     return description and f"schema: {description}"
 
 
-def load_case(path: str | Path, load_map=None) -> Case:
+def load_case(path: str | Path, load_map=None, *, calibrated: bool = True) -> Case:
     """Read and validate a station case file.
 
     Parameters
@@ -212,6 +214,9 @@ def load_case(path: str | Path, load_map=None) -> Case:
         The YAML case.
     load_map : callable, optional
         ``load_map(path) -> CompressorMap``; :func:`trainopt.machines.maps.load_map` by default.
+    calibrated : bool, optional
+        Apply each unit's ``calibration`` factors to its maps (default); False gives the
+        as-new maps.
 
     Returns
     -------
@@ -226,6 +231,9 @@ def load_case(path: str | Path, load_map=None) -> Case:
         schema = CaseSchema.model_validate(data)
     except ValidationError as exc:
         raise _validation_error(exc, path) from None
+    if not calibrated:
+        for unit in schema.units:
+            unit.calibration = None
     return _build(schema, path, load_map)
 
 
@@ -385,6 +393,8 @@ def _train(u: UnitSchema, i: int, here: Path, p: str, load_map, atm: float,
         sections = tuple(_section(sec, j, here, key, t_max, load_map, atm,
                                   sec.least_flow_rule or u.least_flow_rule or rule)
                          for j, sec in enumerate(u.sections))
+    if u.calibration is not None:
+        sections = _calibrated(sections, u.calibration, key + ".calibration")
     max_power = (parse_quantity(u.max_power, Kind.POWER, key + ".max_power")
                  if u.max_power is not None else None)
     loss = _fraction(u.mechanical_loss, key + ".mechanical_loss")
@@ -412,6 +422,24 @@ def _train(u: UnitSchema, i: int, here: Path, p: str, load_map, atm: float,
     lo, hi = _speed_range(driver, [(s.compressor_map, s.speed_ratio) for s in sections],
                           u.rated_speed, u.speed_min, u.speed_max, key)
     return Train(u.name, sections, driver, lo, hi, max_power, loss, UnitStatus(u.status), u.group)
+
+
+def _calibrated(sections: tuple[Section, ...], c: CalibrationSchema, key: str
+                ) -> tuple[Section, ...]:
+    """Sections with their maps degraded by the unit's calibration factors (warned if odd)."""
+    import dataclasses
+    import warnings
+
+    degradation = Degradation(*(_fraction(getattr(c, name), f"{key}.{name}") for name in
+                                ("head_factor", "efficiency_factor", "flow_factor")))
+    odd = degradation.outside_plausible()
+    if odd:
+        warnings.warn(f"{key}: {', '.join(odd)} outside 0.7-1.1: check the calibration "
+                      "history and sensors before trusting this case", DegradationWarning,
+                      stacklevel=4)
+    return tuple(dataclasses.replace(s, compressor_map=degraded_map(s.compressor_map,
+                                                                     degradation))
+                 for s in sections)
 
 
 def _section(sec: SectionSchema, j: int, here: Path, key: str, t_max, load_map,

@@ -118,6 +118,28 @@ class CommitmentSchema(_Schema):
                                      "in its initial state [time].")
 
 
+class CalibrationSchema(_Schema):
+    """Degradation factors of a worn unit against its as-new map (``trainopt calibrate``)."""
+
+    head_factor: Quantity = Field(1.0, description="Head at a given speed and flow over the "
+                                  "as-new map's [-].")
+    efficiency_factor: Quantity = Field(1.0, description="Efficiency over the as-new map's "
+                                        "[-].")
+    flow_factor: Quantity = Field(1.0, description="Capacity shift: flows of the speed line "
+                                  "and its surge and stonewall points times this [-].")
+    head_factor_uncertainty: Quantity | None = Field(None, description="Standard error of "
+                                                     "head_factor [-].")
+    efficiency_factor_uncertainty: Quantity | None = Field(None, description="Standard "
+                                                           "error of efficiency_factor [-].")
+    flow_factor_uncertainty: Quantity | None = Field(None, description="Standard error of "
+                                                     "flow_factor [-].")
+    period: str | None = Field(None, description="Period of the history the factors come "
+                               "from, e.g. '2023-01-01 to 2023-12-31'.")
+    points: int | None = Field(None, description="Steady points the fit used.")
+    excluded_rows: int | None = Field(None, description="History rows excluded (reasons in "
+                                      "the calibration report).")
+
+
 class UnitSchema(_Schema):
     """A compressor unit (one map) or train (several sections) with its driver."""
 
@@ -152,6 +174,9 @@ class UnitSchema(_Schema):
     group: str | None = Field(None, description="Identical units share a group name.")
     commitment: CommitmentSchema = Field(default_factory=CommitmentSchema,
                                          description="Start-stop rules for schedules.")
+    calibration: CalibrationSchema | None = Field(None, description="Degradation factors "
+                                                  "applied to every section's map "
+                                                  "(docs/calibration.md).")
 
 
 class EconomicsSchema(_Schema):
@@ -215,7 +240,8 @@ def schema_markdown() -> str:
     """The case schema as Markdown tables (key, type, default, description)."""
     lines = []
     for model in (CaseSchema, SiteSchema, GasSchema, HeaderSchema, UnitSchema, SectionSchema,
-                  CoolerSchema, CommitmentSchema, InterstageHeaderSchema, EconomicsSchema):
+                  CoolerSchema, CommitmentSchema, InterstageHeaderSchema, EconomicsSchema,
+                  CalibrationSchema):
         lines += [f"### {model.__name__.removesuffix('Schema')}", "", model.__doc__ or "", "",
                   "| key | required | default | description |", "|---|---|---|---|"]
         for name, info in model.model_fields.items():

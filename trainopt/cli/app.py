@@ -11,7 +11,7 @@ from __future__ import annotations
 import typer
 
 from trainopt.caution import CAUTION
-from trainopt.cli import gas, maps, schedule, serve, station, studies
+from trainopt.cli import calibrate, gas, maps, schedule, serve, station, studies
 
 app = typer.Typer(add_completion=False, no_args_is_help=True,
                   help="Least-power load sharing and margins for centrifugal compressor stations.",
@@ -23,5 +23,5 @@ def _root() -> None:
     """Least-power load sharing and margins for centrifugal compressor stations."""
 
 
-for group in (station, maps, gas, studies, schedule, serve):
+for group in (station, maps, gas, studies, calibrate, schedule, serve):
     group.register(app)

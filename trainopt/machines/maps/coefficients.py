@@ -68,7 +68,7 @@ def map_from_coefficients(
     InputError
         If the coefficients are not 9, 9, 3, 3 numbers, the speed range is empty, or the
         map breaks the physics inside its range (see
-        :func:`~trainopt.machines.maps.compressor_map.check_map_shape`).
+        :func:`~trainopt.machines.maps.shape.check_map_shape`).
 
     References
     ----------
