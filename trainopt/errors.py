@@ -48,3 +48,7 @@ class TwoPhaseError(PhysicsError):
 
 class InfeasibleError(TrainoptError):
     """No operating point meets every limit; the message says which limit binds."""
+
+
+class TrainoptWarning(UserWarning):
+    """Base class of the warnings trainopt gives on purpose; the CLI shows each as one line."""

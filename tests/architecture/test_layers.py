@@ -32,7 +32,9 @@ ALLOWED = {
     "station": BELOW_STATION,
     "studies": BELOW_STATION | {"station"},
     "report": BELOW_STATION | {"station", "studies"},
-    "cli": BELOW_STATION | {"station", "studies", "report", "", "__main__"},
+    # web: the local page and API, over every layer below the command line
+    "web": BELOW_STATION | {"station", "studies", "report"},
+    "cli": BELOW_STATION | {"station", "studies", "report", "web", "", "__main__"},
     "": {"case", "station", "errors"},  # trainopt/__init__.py: the public API
     "__main__": {"cli"},
 }

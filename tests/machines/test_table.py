@@ -107,12 +107,12 @@ def test_speed_line_with_two_points(tmp_path):
     assert f"{tmp_path / 'a.csv'}:8:speed" in refused(write_map(tmp_path, rows))
 
 
-def test_head_rising_with_flow(tmp_path):
+def test_head_rising_with_flow_right_of_surge_is_read(tmp_path):
+    # real speed lines may rise from the surge point to their peak: read, not refused
     rows = list(GOOD_ROWS)
-    rows[2] = "9000,4.2,59.0,0.81,"  # above 58.0 at 3.6 m3/s
-    message = refused(write_map(tmp_path, rows))
-    assert f"{tmp_path / 'a.csv'}:6:head" in message
-    assert "head rises with flow on the speed line at 9000 rpm" in message
+    rows[1] = "9000,3.6,60.5,0.82,"  # above 60.0 at the surge point 3.0 m3/s
+    table = read_map_source(write_map(tmp_path, rows))
+    assert_allclose(table.points["head"].iloc[1], 60.5e3)
 
 
 def test_crossing_speed_lines(tmp_path):

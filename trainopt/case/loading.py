@@ -16,6 +16,7 @@ from pydantic import BaseModel, ValidationError
 
 from trainopt.case.gas_file import read_yaml
 from trainopt.case.schema import (
+    CalibrationSchema,
     CaseSchema,
     CoolerSchema,
     GasSchema,
@@ -24,7 +25,9 @@ from trainopt.case.schema import (
     SectionSchema,
     UnitSchema,
 )
+from trainopt.case.unit_rules import unit_rules
 from trainopt.errors import InputError
+from trainopt.machines.degradation import Degradation, DegradationWarning, degraded_map
 from trainopt.machines.drivers import GasTurbine, driver_from_dict
 from trainopt.machines.train import (
     Cooler,
@@ -103,6 +106,8 @@ class Case:
     throttle : bool
         Whether a single-section unit may run at its minimum speed with a discharge
         throttle where its head lies below its minimum-speed line.
+    unit_rules : dict of str to UnitRules
+        Per unit, its start-stop rules (:mod:`trainopt.case.unit_rules`).
     """
 
     name: str
@@ -120,6 +125,7 @@ class Case:
     extra: dict = field(default_factory=dict, compare=False)
     interstage_header: InterstageHeader | None = None
     throttle: bool = False
+    unit_rules: dict = field(default_factory=dict, compare=False)
 
     def demand_mass_flow(self, demand: Flow | None = None) -> float:
         """Demand as mass flow [kg/s] (standard volumes at their reference conditions)."""
@@ -199,7 +205,7 @@ def _describe(loc) -> str | None:
     return description and f"schema: {description}"
 
 
-def load_case(path: str | Path, load_map=None) -> Case:
+def load_case(path: str | Path, load_map=None, *, calibrated: bool = True) -> Case:
     """Read and validate a station case file.
 
     Parameters
@@ -208,6 +214,9 @@ def load_case(path: str | Path, load_map=None) -> Case:
         The YAML case.
     load_map : callable, optional
         ``load_map(path) -> CompressorMap``; :func:`trainopt.machines.maps.load_map` by default.
+    calibrated : bool, optional
+        Apply each unit's ``calibration`` factors to its maps (default); False gives the
+        as-new maps.
 
     Returns
     -------
@@ -222,6 +231,9 @@ def load_case(path: str | Path, load_map=None) -> Case:
         schema = CaseSchema.model_validate(data)
     except ValidationError as exc:
         raise _validation_error(exc, path) from None
+    if not calibrated:
+        for unit in schema.units:
+            unit.calibration = None
     return _build(schema, path, load_map)
 
 
@@ -273,12 +285,15 @@ def _build(s: CaseSchema, path: Path, load_map) -> Case:
     for n in names:
         if names.count(n) > 1:
             raise InputError(p + "units", f"the name '{n}' is used twice", "make names unique")
-    trains = tuple(_train(u, i, here, p, load_map, atm) for i, u in enumerate(s.units))
+    trains = tuple(_train(u, i, here, p, load_map, atm, s.least_flow_rule)
+                   for i, u in enumerate(s.units))
     header = (None if s.interstage_header is None
               else _interstage_header(s.interstage_header, names, p, p1, p2, atm))
+    rules = {u.name: unit_rules(u.commitment, f"{p}units[{i}].commitment", e.currency)
+             for i, u in enumerate(s.units)}
     return Case(s.name, path, gas, atm, ambient, p1, t1, p2, demand, s.objective, econ, trains,
                 extra={"demand": str(s.demand)}, interstage_header=header,
-                throttle=s.throttle == "allowed")
+                throttle=s.throttle == "allowed", unit_rules=rules)
 
 
 def _interstage_header(h: InterstageHeaderSchema, names: list[str], p: str, p1: float,
@@ -359,7 +374,8 @@ def _speed_range(driver, maps_and_ratios, rated, smin, smax, key: str) -> tuple[
     return lo, hi
 
 
-def _train(u: UnitSchema, i: int, here: Path, p: str, load_map, atm: float) -> Train:
+def _train(u: UnitSchema, i: int, here: Path, p: str, load_map, atm: float,
+           rule: str = "surge_line") -> Train:
     key = f"{p}units[{i}]"
     if (u.map is None) == (u.sections is None):
         raise InputError(key, "give either 'map' (one section) or 'sections'", None)
@@ -369,13 +385,16 @@ def _train(u: UnitSchema, i: int, here: Path, p: str, load_map, atm: float) -> T
     if u.map is not None:
         sections = (Section(u.name, _map(load_map, here / u.map, key + ".map"), 1.0,
                             _fraction(u.surge_control_offset, key + ".surge_control_offset"),
-                            t_max),)
+                            t_max, least_flow_rule=u.least_flow_rule or rule),)
     else:
         if not u.sections:
             raise InputError(key + ".sections", "a train needs at least one section",
                              "list its sections in flow order, each with a map")
-        sections = tuple(_section(sec, j, here, key, t_max, load_map, atm)
+        sections = tuple(_section(sec, j, here, key, t_max, load_map, atm,
+                                  sec.least_flow_rule or u.least_flow_rule or rule)
                          for j, sec in enumerate(u.sections))
+    if u.calibration is not None:
+        sections = _calibrated(sections, u.calibration, key + ".calibration")
     max_power = (parse_quantity(u.max_power, Kind.POWER, key + ".max_power")
                  if u.max_power is not None else None)
     loss = _fraction(u.mechanical_loss, key + ".mechanical_loss")
@@ -405,8 +424,26 @@ def _train(u: UnitSchema, i: int, here: Path, p: str, load_map, atm: float) -> T
     return Train(u.name, sections, driver, lo, hi, max_power, loss, UnitStatus(u.status), u.group)
 
 
+def _calibrated(sections: tuple[Section, ...], c: CalibrationSchema, key: str
+                ) -> tuple[Section, ...]:
+    """Sections with their maps degraded by the unit's calibration factors (warned if odd)."""
+    import dataclasses
+    import warnings
+
+    degradation = Degradation(*(_fraction(getattr(c, name), f"{key}.{name}") for name in
+                                ("head_factor", "efficiency_factor", "flow_factor")))
+    odd = degradation.outside_plausible()
+    if odd:
+        warnings.warn(f"{key}: {', '.join(odd)} outside 0.7-1.1: check the calibration "
+                      "history and sensors before trusting this case", DegradationWarning,
+                      stacklevel=4)
+    return tuple(dataclasses.replace(s, compressor_map=degraded_map(s.compressor_map,
+                                                                     degradation))
+                 for s in sections)
+
+
 def _section(sec: SectionSchema, j: int, here: Path, key: str, t_max, load_map,
-             atm: float) -> Section:
+             atm: float, rule: str = "surge_line") -> Section:
     k = f"{key}.sections[{j}]"
     cooler = None if sec.cooler is None else _cooler(sec.cooler, k + ".cooler")
     limit = (parse_quantity(sec.max_discharge_temperature, Kind.TEMPERATURE,
@@ -432,7 +469,7 @@ def _section(sec: SectionSchema, j: int, here: Path, key: str, t_max, load_map,
                                  "give it on the unit, or give this section its own driver")
     return Section(sec.name, cmap, ratio, _fraction(sec.surge_control_offset,
                                                     k + ".surge_control_offset"), limit,
-                   cooler, drive)
+                   cooler, drive, rule)
 
 
 def standard_elevation(pressure: float) -> float:

@@ -12,6 +12,8 @@ from typing import Literal
 from pydantic import BaseModel, ConfigDict, Field
 
 Quantity = str | float | int
+LeastFlowRuleName = Literal["surge_line", "speed_line_peak", "larger"]
+"""Values of ``least_flow_rule`` (:class:`trainopt.machines.maps.LeastFlowRule`)."""
 
 
 class _Schema(BaseModel):
@@ -66,6 +68,11 @@ class SectionSchema(_Schema):
     speed_ratio: Quantity = Field(1.0, description="Section speed over shaft speed [-].")
     surge_control_offset: Quantity = Field("10 %", description="Surge control line offset, "
                                            "fraction of surge flow at the same head [-].")
+    least_flow_rule: LeastFlowRuleName | None = Field(
+        None, description="Which line sets the least flow before the surge control offset: "
+        "'surge_line' (the vendor's surge line), 'speed_line_peak' (the peak of the speed "
+        "line, a stability rule for parallel units on flat curves) or 'larger'; default the "
+        "case's (docs/maps.md).")
     max_discharge_temperature: Quantity | None = Field(None, description="Discharge "
                                                        "temperature limit [temperature].")
     cooler: CoolerSchema | None = Field(None, description="Cooler after this section.")
@@ -80,6 +87,57 @@ class SectionSchema(_Schema):
                                          "separately driven section.")
     max_power: Quantity | None = Field(None, description="Extra shaft-power limit [power] of "
                                        "a separately driven section.")
+
+
+class CommitmentSchema(_Schema):
+    """A unit's start-stop rules, read by the commitment schedule (docs/schedule.md)."""
+
+    start_cost: Quantity = Field(0, description="Cost of one start [currency of "
+                                 "economics], wear and purge, e.g. 1500.")
+    start_fuel: Quantity = Field("0 GJ", description="Fuel energy burnt by one start "
+                                 "[energy, LHV], charged at the fuel price, e.g. '40 GJ'.")
+    cold_start_cost: Quantity | None = Field(None, description="Cost of a start after the "
+                                             "unit was stopped longer than cold_after "
+                                             "[currency], instead of start_cost; default "
+                                             "the same as start_cost.")
+    cold_after: Quantity | None = Field(None, description="Stopped time after which a "
+                                        "start is a cold start [time], e.g. '8 h'.")
+    stop_cost: Quantity = Field(0, description="Cost of one stop [currency].")
+    startup_time: Quantity = Field("0 h", description="Time from a start until the unit "
+                                   "carries flow [time]; it carries none meanwhile.")
+    min_up_time: Quantity = Field("0 h", description="Least running time after a start "
+                                  "[time].")
+    min_down_time: Quantity = Field("0 h", description="Least stopped time after a stop "
+                                    "[time].")
+    max_starts_per_day: int | None = Field(None, description="Most starts in any 24 h "
+                                           "[-]; no limit by default.")
+    initial_state: Literal["running", "stopped"] | None = Field(
+        None, description="State when the schedule begins; default running unless the "
+        "unit is offline.")
+    hours_in_state: Quantity = Field("1000 h", description="How long the unit has been "
+                                     "in its initial state [time].")
+
+
+class CalibrationSchema(_Schema):
+    """Degradation factors of a worn unit against its as-new map (``trainopt calibrate``)."""
+
+    head_factor: Quantity = Field(1.0, description="Head at a given speed and flow over the "
+                                  "as-new map's [-].")
+    efficiency_factor: Quantity = Field(1.0, description="Efficiency over the as-new map's "
+                                        "[-].")
+    flow_factor: Quantity = Field(1.0, description="Capacity shift: flows of the speed line "
+                                  "and its surge and stonewall points times this [-].")
+    head_factor_uncertainty: Quantity | None = Field(None, description="Standard error of "
+                                                     "head_factor [-].")
+    efficiency_factor_uncertainty: Quantity | None = Field(None, description="Standard "
+                                                           "error of efficiency_factor [-].")
+    flow_factor_uncertainty: Quantity | None = Field(None, description="Standard error of "
+                                                     "flow_factor [-].")
+    period: str | None = Field(None, description="Period of the history the factors come "
+                               "from, e.g. '2023-01-01 to 2023-12-31'.")
+    points: int | None = Field(None, description="Steady points the fit used.")
+    excluded_rows: int | None = Field(None, description="History rows excluded (reasons in "
+                                      "the calibration report).")
 
 
 class UnitSchema(_Schema):
@@ -100,6 +158,11 @@ class UnitSchema(_Schema):
                                          "continuous speed is 105 % of it (API 617 practice).")
     surge_control_offset: Quantity = Field("10 %", description="Surge control line offset "
                                            "of a single-section unit [-].")
+    least_flow_rule: LeastFlowRuleName | None = Field(
+        None, description="Which line sets the least flow before the surge control offset: "
+        "'surge_line' (the vendor's surge line), 'speed_line_peak' (the peak of the speed "
+        "line, a stability rule for parallel units on flat curves) or 'larger'; default the "
+        "case's (docs/maps.md).")
     max_discharge_temperature: Quantity | None = Field(None, description="Discharge "
                                                        "temperature limit [temperature].")
     max_power: Quantity | None = Field(None, description="Extra shaft-power limit [power].")
@@ -109,6 +172,11 @@ class UnitSchema(_Schema):
                                                                 "Whether the optimiser may "
                                                                 "start or stop it.")
     group: str | None = Field(None, description="Identical units share a group name.")
+    commitment: CommitmentSchema = Field(default_factory=CommitmentSchema,
+                                         description="Start-stop rules for schedules.")
+    calibration: CalibrationSchema | None = Field(None, description="Degradation factors "
+                                                  "applied to every section's map "
+                                                  "(docs/calibration.md).")
 
 
 class EconomicsSchema(_Schema):
@@ -150,6 +218,9 @@ class CaseSchema(_Schema):
     discharge: HeaderSchema = Field(..., description="Discharge (delivery) header.")
     demand: Quantity = Field(..., description="Station throughput: mass, actual or standard "
                              "volume flow, e.g. '300 MMSCFD', '75 kg/s'.")
+    least_flow_rule: LeastFlowRuleName = Field(
+        "surge_line", description="Default least-flow rule of every unit: 'surge_line', "
+        "'speed_line_peak' or 'larger' (docs/maps.md); a unit or section may override it.")
     objective: Literal["shaft_power", "energy_input", "cost"] = Field(
         "shaft_power", description="What the optimiser minimises.")
     economics: EconomicsSchema = Field(default_factory=EconomicsSchema,
@@ -169,7 +240,8 @@ def schema_markdown() -> str:
     """The case schema as Markdown tables (key, type, default, description)."""
     lines = []
     for model in (CaseSchema, SiteSchema, GasSchema, HeaderSchema, UnitSchema, SectionSchema,
-                  CoolerSchema, InterstageHeaderSchema, EconomicsSchema):
+                  CoolerSchema, CommitmentSchema, InterstageHeaderSchema, EconomicsSchema,
+                  CalibrationSchema):
         lines += [f"### {model.__name__.removesuffix('Schema')}", "", model.__doc__ or "", "",
                   "| key | required | default | description |", "|---|---|---|---|"]
         for name, info in model.model_fields.items():

@@ -2,7 +2,8 @@
 
 Each group lives in its own module with a ``register(app)`` function: :mod:`~trainopt.cli.station`
 (``optimize``, ``evaluate``), :mod:`~trainopt.cli.gas`, :mod:`~trainopt.cli.maps` (``fit-map``)
-and :mod:`~trainopt.cli.studies` (``envelope``, ``audit``).
+and :mod:`~trainopt.cli.studies` (``envelope``, ``audit``); :mod:`~trainopt.cli.schedule`
+(``schedule``).
 """
 
 from __future__ import annotations
@@ -10,7 +11,7 @@ from __future__ import annotations
 import typer
 
 from trainopt.caution import CAUTION
-from trainopt.cli import gas, maps, station, studies
+from trainopt.cli import calibrate, gas, maps, schedule, serve, station, studies
 
 app = typer.Typer(add_completion=False, no_args_is_help=True,
                   help="Least-power load sharing and margins for centrifugal compressor stations.",
@@ -22,5 +23,5 @@ def _root() -> None:
     """Least-power load sharing and margins for centrifugal compressor stations."""
 
 
-for group in (station, maps, gas, studies):
+for group in (station, maps, gas, studies, calibrate, schedule, serve):
     group.register(app)

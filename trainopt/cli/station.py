@@ -2,7 +2,6 @@
 
 from __future__ import annotations
 
-import json
 import sys
 from pathlib import Path
 
@@ -29,6 +28,9 @@ def optimize_command(
     force: bool = typer.Option(False, "--force", help=_FORCE),
     verbose: bool = typer.Option(False, "--verbose", help=_VERBOSE),
     explain: bool = typer.Option(False, "--explain", help=_EXPLAIN),
+    trip_reserve: str | None = typer.Option(None, "--trip-reserve", help="With any one running "
+                                            "unit tripped, the others can carry this share of "
+                                            "demand, e.g. '90 %' (steady state only)."),
 ) -> None:
     """Find the least-power split of the demand across the station's units."""
     import trainopt
@@ -36,7 +38,20 @@ def optimize_command(
     case = trainopt.load_case(case_file)
     folder = _check_out(case, out, force)
     result = trainopt.optimize(case, demand=demand, offline=unit_names(offline, "--offline"),
-                               objective=objective)
+                               objective=objective,
+                               **({"trip_reserve": trip_reserve} if trip_reserve else {}))
+    security = (result.solver or {}).get("trip_reserve")
+    if security and not as_json:
+        def shown(x):  # the objective in W, or currency/s for cost
+            if result.objective == "cost":
+                return f"{x * 3600:,.2f} {case.economics.currency}/h"
+            return f"{x / 1e3:,.0f} kW"
+
+        sys.stdout.write(f"trip reserve {security['share']:.0%}: {result.objective} "
+                         f"{shown(security['piecewise_objective_with'])} with it, "
+                         f"{shown(security['piecewise_objective_without'])} without (on the "
+                         "piecewise curves; steady state, the trip transient is not "
+                         "modelled)\n")
     _show(result, as_json, folder, demand, verbose=verbose, explain=explain)
 
 
@@ -81,10 +96,11 @@ def _check_out(case, out: Path | None, force: bool):
 def _show(result, as_json: bool, folder, demand: str | None, *, verbose: bool = False,
           explain: bool = False) -> None:
     """Print the result first, then write its files: a write failure loses no answer."""
+    from trainopt.report.result_json import result_json
     from trainopt.report.terminal import format_result
 
     if as_json:
-        sys.stdout.write(json.dumps(result.to_dict(), indent=2, default=str) + "\n")
+        sys.stdout.write(result_json(result))
     else:
         sys.stdout.write(format_result(result, demand_text=demand, verbose=verbose,
                                        explain=explain) + "\n")

@@ -11,7 +11,11 @@
 - :mod:`~trainopt.dispatch.piecewise`: piecewise-linear forms;
 - :mod:`~trainopt.dispatch.model`: the Pyomo model (run/stop, flows, recycle, demand);
 - :mod:`~trainopt.dispatch.solve`: the HiGHS solve; :mod:`~trainopt.dispatch.solution` its
-  result.
+  result;
+- :mod:`~trainopt.dispatch.commitment_model`, :mod:`~trainopt.dispatch.commitment_solve`:
+  the multi-period commitment model (start-stop rules, trip reserve) and its solve;
+  :mod:`~trainopt.dispatch.commitment_dp` its exact reference for small cases;
+  :mod:`~trainopt.dispatch.trip_reserve`: one moment's dispatch with a trip reserve.
 
 May import: :mod:`trainopt.machines`, :mod:`trainopt.physics`, :mod:`trainopt.errors`. Never
 a case file, the station, studies or edges; physics below never imports this.

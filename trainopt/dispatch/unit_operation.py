@@ -253,7 +253,7 @@ def operate(train: Train, duty: Duty, mass_flow, ambient_temperature, throttle: 
         mass_flow=m, volume_flow=q, speed=speed, head=head, efficiency=eta,
         discharge_temperature=t_d, gas_power=gas_power, shaft_power=shaft,
         available_power=available * np.ones_like(m), energy_input=energy,
-        surge_flow=surge, control_line_flow=surge * (1.0 + section.surge_control_offset),
+        surge_flow=surge, control_line_flow=section.control_line_flow(head, surge),
         stonewall_flow=stonewall, off_map_limit=code, discharge_pressure=p_d,
         throttle_pressure_drop=drop,
         lost_power=m * lost_work * (1.0 + train.mechanical_loss),

@@ -155,7 +155,7 @@ def _points(section: Section, p_s, t_s, rho, m, q, speed, head, eta, p_d, t_d, w
     return SectionPoints(
         full(p_s), full(t_s), full(rho), full(m), full(q), full(speed), full(head), full(eta),
         full(p_d), full(t_d), full(work), full(surge),
-        full(surge * (1.0 + section.surge_control_offset)), full(stonewall),
+        full(section.control_line_flow(head, surge)), full(stonewall),
         np.broadcast_to(np.asarray(side, int), shape))
 
 

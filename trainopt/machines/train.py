@@ -19,8 +19,16 @@ from __future__ import annotations
 from dataclasses import dataclass, field
 from enum import Enum
 
+import numpy as np
+
 from trainopt.errors import InputError
 from trainopt.machines.maps.compressor_map import DEFAULT_CONTROL_LINE_OFFSET
+from trainopt.machines.maps.least_flow import (
+    ControlLine,
+    LeastFlowRule,
+    control_line,
+    parse_least_flow_rule,
+)
 
 MAX_CONTINUOUS_SPEED_FRACTION = 1.05
 """Maximum continuous speed over rated speed [-] (API 617 practice, common practice)."""
@@ -111,6 +119,9 @@ class Section:
         Cooler after this section (to the next section's suction).
     drive : SectionDrive or None
         The section's own driver; None on a shared shaft.
+    least_flow_rule : LeastFlowRule
+        Which line sets the least flow before the control-line offset: the surge line
+        (default), the speed-line peak, or the larger (docs/maps.md).
     """
 
     name: str
@@ -120,8 +131,38 @@ class Section:
     max_discharge_temperature: float | None = None
     cooler: Cooler | None = None
     drive: SectionDrive | None = None
+    least_flow_rule: LeastFlowRule = LeastFlowRule.SURGE_LINE
+
+    def control_line(self, head, *, extend: bool = False) -> ControlLine:
+        """The section's surge control line at head [J/kg], under its least-flow rule.
+
+        See :func:`trainopt.machines.maps.least_flow.control_line`: the control line flow
+        [m³/s], the surge and peak flows, which line binds and whether it was extrapolated.
+        """
+        return control_line(self.compressor_map, head, self.surge_control_offset,
+                            self.least_flow_rule, extend=extend)
+
+    def control_line_flow(self, head, surge_flow=None):
+        """Surge control line flow [m³/s] at head [J/kg] under the section's least-flow rule.
+
+        ``surge_flow`` [m³/s], if given, is the surge flow already found at that head (so the
+        default rule costs nothing more).
+        """
+        if self.least_flow_rule is LeastFlowRule.SURGE_LINE and surge_flow is not None:
+            return np.asarray(surge_flow, float) * (1.0 + self.surge_control_offset)
+        line = self.control_line(head, extend=True)
+        if surge_flow is None or self.least_flow_rule is LeastFlowRule.SPEED_LINE_PEAK:
+            return line.flow
+        return (1.0 + self.surge_control_offset) * np.fmax(surge_flow, line.peak_flow)
 
     def __post_init__(self):
+        try:
+            object.__setattr__(self, "least_flow_rule",
+                               parse_least_flow_rule(self.least_flow_rule))
+        except ValueError:
+            raise InputError(f"sections.{self.name}.least_flow_rule",
+                             f"{self.least_flow_rule!r} is not a least-flow rule",
+                             "use surge_line, speed_line_peak or larger") from None
         if not self.speed_ratio > 0:
             raise InputError(f"sections.{self.name}.speed_ratio",
                              f"{self.speed_ratio:g} is not a positive ratio",

@@ -170,7 +170,8 @@ def unit_map_figure(audit, unit: str, max_points: int = 3000) -> Figure:
 
     train = audit.case.train(unit)
     section = train.sections[0]
-    fig = plot_map(section.compressor_map, control_line_offset=section.surge_control_offset)
+    fig = plot_map(section.compressor_map, control_line_offset=section.surge_control_offset,
+                   least_flow_rule=section.least_flow_rule)
     ax = fig.axes[0]
     u = audit.unit_hours
     rows = u[(u["unit"] == unit) & u["running"] & (u["status"] == "audited")]

@@ -18,6 +18,7 @@ from matplotlib.figure import Figure
 from trainopt.caution import CAUTION
 from trainopt.machines.maps.compressor_map import DEFAULT_CONTROL_LINE_OFFSET, CompressorMap
 from trainopt.machines.maps.fit import MapFit, fan_law_departure, fit_map
+from trainopt.machines.maps.least_flow import LeastFlowRule, parse_least_flow_rule
 from trainopt.machines.maps.table import read_map_source
 from trainopt.report.output_folder import OutputFolder, safe_name, write_csv
 
@@ -36,6 +37,7 @@ def plot_map(
     points: pd.DataFrame | None = None,
     control_line_offset: float = DEFAULT_CONTROL_LINE_OFFSET,
     speeds=None,
+    least_flow_rule=None,
 ) -> Figure:
     """Draw a map: speed lines, efficiency islands, surge, control and stonewall lines.
 
@@ -51,6 +53,10 @@ def plot_map(
     speeds : array_like, optional
         Speeds of the lines to draw [1/s]; by default the measured speeds, else five
         across the tested range.
+    least_flow_rule : LeastFlowRule or str, optional
+        The unit's least-flow rule; the control line is drawn at ``1 + offset`` times the
+        least flow under it (default the surge line). The peak of the speed lines is drawn
+        where it lies right of the surge line.
 
     Returns
     -------
@@ -81,13 +87,33 @@ def plot_map(
         surge_flow, stonewall_flow = flow[:, 0], flow[:, -1]
         surge_head, stonewall_head = head[:, 0] / 1e3, head[:, -1] / 1e3
         ax.plot(surge_flow, surge_head, color=_SURGE, lw=2.2, label="surge line")
+        peak_flow = m.peak_flow_at_speed(speed[:, 0])
+        peak_head = m.head(peak_flow, speed[:, 0], warn=False) / 1e3
+        if np.any(peak_flow > surge_flow * 1.005):
+            ax.plot(peak_flow, peak_head, color=_SURGE, lw=1.0, ls=":", label="speed-line peak")
+        rule = LeastFlowRule.SURGE_LINE if least_flow_rule is None else least_flow_rule
+        rule = parse_least_flow_rule(rule)
+        if rule is LeastFlowRule.SURGE_LINE:
+            control_flow, control_head = (1 + control_line_offset) * surge_flow, surge_head
+        else:
+            control_head = np.linspace(
+                min(surge_head.min(), peak_head.min()), max(surge_head.max(), peak_head.max()), 80
+            )
+            control_flow = m.control_line_flow_at_head(
+                1e3 * control_head, control_line_offset, rule
+            )
+        where = {
+            LeastFlowRule.SURGE_LINE: "surge flow",
+            LeastFlowRule.SPEED_LINE_PEAK: "the speed-line peak flow",
+            LeastFlowRule.LARGER: "the larger of surge and peak flow",
+        }[rule]
         ax.plot(
-            (1 + control_line_offset) * surge_flow,
-            surge_head,
+            control_flow,
+            control_head,
             color=_CONTROL,
             lw=1.6,
             ls=(0, (6, 3)),
-            label=f"surge control line ({100 * control_line_offset:.0f} % of surge flow)",
+            label=f"surge control line ({100 * control_line_offset:.0f} % of {where})",
         )
         ax.plot(
             stonewall_flow,
@@ -177,12 +203,14 @@ def write_fit_report(map_path: str | Path, out_dir: str | Path, *,
     -------
     dict of str to Path
         ``report`` (text summary), ``picture`` (PNG) and, for fitted maps, ``points``
-        (residuals per point, CSV) and ``lines`` (residuals per speed line, CSV).
+        (residuals per point, CSV) and ``lines`` (residuals per speed line, CSV), and for a
+        curve of pressure ``conversion`` (heads converted per point, CSV).
     """
     map_path = Path(map_path)
     stem = safe_name(map_path.stem)
     names = {"report": f"{stem}_fit.txt", "picture": f"{stem}_map.png",
-             "points": f"{stem}_fit_points.csv", "lines": f"{stem}_fit_lines.csv"}
+             "points": f"{stem}_fit_points.csv", "lines": f"{stem}_fit_lines.csv",
+             "conversion": f"{stem}_head_conversion.csv"}
     folder = OutputFolder(out_dir, overwrite=overwrite, option="--out")
     folder.check(names.values())
     source = read_map_source(map_path)
@@ -211,6 +239,10 @@ def _write_fit_files(map_path: Path, source, fit: MapFit | None, folder: OutputF
         write_csv(_display(fit.points), paths["points"], float_format="%.6g")
         write_csv(_display(fit.lines), paths["lines"], float_format="%.6g")
         text += _fit_text(fit)
+        if fit.conversion is not None:
+            paths["conversion"] = folder.path(names["conversion"])
+            write_csv(_display(fit.conversion), paths["conversion"], float_format="%.8g")
+            text += ["", fit.conversion_note + f"; per point in {names['conversion']}"]
     departure = _display(fan_law_departure(m)).astype({"speed [rpm]": int})
     text += [
         "",
@@ -273,4 +305,8 @@ def _display(frame: pd.DataFrame) -> pd.DataFrame:
             out[column], renames[column] = out[column] / 1e3, f"{column} [kJ/kg]"
         elif column.endswith(("flow", "flow_fit")):
             renames[column] = f"{column} [m3/s]"
+        elif column == "discharge_pressure":
+            out[column], renames[column] = out[column] / 1e5, "discharge_pressure [bar]"
+        elif column == "pressure_ratio":
+            renames[column] = "pressure_ratio [-]"
     return out.rename(columns=renames)

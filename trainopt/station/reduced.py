@@ -255,8 +255,8 @@ def _twin_key(train: Train) -> tuple | None:
     """
     section = train.sections[0]
     key = (id(section.compressor_map), section.speed_ratio, section.surge_control_offset,
-           section.max_discharge_temperature, train.driver, train.speed_min, train.speed_max,
-           train.max_power, train.mechanical_loss)
+           section.least_flow_rule, section.max_discharge_temperature, train.driver,
+           train.speed_min, train.speed_max, train.max_power, train.mechanical_loss)
     try:
         hash(key)
     except TypeError:

@@ -39,7 +39,7 @@ def infeasible_units_text(station: Station) -> str:
 
 
 def answer(station: Station, m_demand: float, dispatcher: Dispatcher | None = None,
-           baselines: bool = True) -> StationResult:
+           baselines: bool = True, trip_reserve=None) -> StationResult:
     """The least-objective split of a demand on a reduced station.
 
     Parameters
@@ -52,6 +52,9 @@ def answer(station: Station, m_demand: float, dispatcher: Dispatcher | None = No
         A dispatch model of ``station.unit_curves()`` to re-solve; built here if None.
     baselines : bool
         Also evaluate equal-flow, equal-speed and equal-margin sharing.
+    trip_reserve : float or str, optional
+        Share of the demand the running units must still carry with any one of them
+        tripped (see :func:`trainopt.optimize`); solved afresh, not on ``dispatcher``.
 
     Returns
     -------
@@ -66,6 +69,15 @@ def answer(station: Station, m_demand: float, dispatcher: Dispatcher | None = No
             return StationResult.infeasible(case, m_demand, reason, station.objective)
         dispatcher = Dispatcher(curves)
     dispatch = dispatcher.solve(m_demand)
+    security = None
+    if trip_reserve is not None and dispatch.status != "infeasible":
+        from trainopt.dispatch.trip_reserve import solve_secure_dispatch, trip_share_of
+
+        share = trip_share_of(trip_reserve)
+        plain = dispatch
+        dispatch = solve_secure_dispatch(station.unit_curves(), m_demand, share)
+        security = {"share": share, "piecewise_objective_without": plain.objective,
+                    "piecewise_objective_with": dispatch.objective}
     if dispatch.status == "infeasible":
         return StationResult.infeasible(case, m_demand, dispatch.reason
                                         + infeasible_units_text(station), station.objective)
@@ -86,6 +98,8 @@ def answer(station: Station, m_demand: float, dispatcher: Dispatcher | None = No
                      "objective_unit": ("W" if station.objective != "cost" else
                                         f"{case.economics.currency}/s"),
                      "convex": {n: c.convex for n, c in station.curves.items()}}
+    if security is not None:
+        result.solver["trip_reserve"] = security
     if baselines:
         result.baselines = compare_baselines(station, result, m_demand)
         result.baselines_all_units = compare_all_units(station, result, m_demand,
@@ -182,7 +196,7 @@ class ReducedStation:
         return self._dispatchers[key]
 
     def optimize(self, demand=None, offline: Iterable[str] = (), objective: str | None = None,
-                 baselines: bool = True) -> StationResult:
+                 baselines: bool = True, trip_reserve=None) -> StationResult:
         """Least-objective split of a demand: the same answer as :func:`trainopt.optimize`.
 
         Parameters
@@ -196,6 +210,8 @@ class ReducedStation:
             ``shaft_power``, ``energy_input`` or ``cost``; this station's by default.
         baselines : bool
             Also evaluate the load-sharing baselines.
+        trip_reserve : float or str, optional
+            As for :func:`trainopt.optimize` (its secure dispatch is solved afresh).
 
         Returns
         -------
@@ -208,4 +224,4 @@ class ReducedStation:
         if dispatcher is None:
             reason = "no unit is available" + infeasible_units_text(station)
             return StationResult.infeasible(self.case, m_demand, reason, station.objective)
-        return answer(station, m_demand, dispatcher, baselines)
+        return answer(station, m_demand, dispatcher, baselines, trip_reserve)

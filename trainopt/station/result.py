@@ -73,7 +73,10 @@ def unit_rows(station, through: dict[str, float], recycle: dict[str, float]) -> 
         energy = float(op.energy_input[0])
         price, co2 = station.price(train)
         q, n = float(op.volume_flow[0]), float(op.speed[0])
-        surge, scl = float(op.surge_flow[0]), float(op.control_line_flow[0])
+        # margins on the unit's least-flow rule; below (or above) the tested surge heads on
+        # the fan-law extension of the lines, flagged (docs/maps.md)
+        line = section.control_line(op.head[0], extend=True)
+        surge, scl = float(line.surge_flow), float(line.flow)
         net = m - recycle.get(name, 0.0)
         curve = station.curves.get(name)
         row.update({
@@ -98,6 +101,9 @@ def unit_rows(station, through: dict[str, float], recycle: dict[str, float]) -> 
             "discharge_temperature_C": c.discharge.temperature - 273.15,
             "surge_margin_pct": _pct((q - surge) / surge),
             "control_line_margin_pct": _pct((q - scl) / scl),
+            "surge_margin_extrapolated": bool(line.surge_extrapolated | line.extrapolated),
+            "least_flow_rule": section.least_flow_rule.value,
+            "least_flow_binds": str(line.binds),
             "stonewall_margin_pct": _pct(float(stonewall_margin(
                 section.compressor_map, q, n * section.speed_ratio, warn=False))),
             "speed_min_margin_pct": _pct((n - train.speed_min) / train.speed_min),

@@ -24,7 +24,8 @@ from trainopt.station.result import StationResult
 
 
 def optimize(case: Case, demand=None, offline: Iterable[str] = (), objective: str | None = None,
-             baselines: bool = True, throttle: bool | None = None) -> StationResult:
+             baselines: bool = True, throttle: bool | None = None,
+             trip_reserve=None) -> StationResult:
     """Least-objective split of the demand across the station's units.
 
     Parameters
@@ -45,6 +46,11 @@ def optimize(case: Case, demand=None, offline: Iterable[str] = (), objective: st
         pressure ratio puts their head below the minimum-speed line (the case's
         ``throttle`` by default); rows then show the throttled pressure drop and the lost
         power.
+    trip_reserve : float or str, optional
+        With any one running unit tripped, the others can carry at least this share of
+        the demand within their limits (``0.9`` or ``"90 %"``; steady state only, see
+        docs/schedule.md). ``result.solver["trip_reserve"]`` then gives the objective
+        with and without it.
 
     Returns
     -------
@@ -54,9 +60,13 @@ def optimize(case: Case, demand=None, offline: Iterable[str] = (), objective: st
     if throttle is not None and bool(throttle) != case.throttle:
         case = replace(case, throttle=bool(throttle))
     if case.interstage_header is not None:
+        if trip_reserve is not None:
+            raise InputError("trip_reserve", "is not available for a station with a shared "
+                             "interstage header", "leave it out for this case")
         return optimize_header(case, demand, offline, objective, baselines)
     station = Station(case, offline, objective)
-    return answer(station, requested_demand(case, demand), baselines=baselines)
+    return answer(station, requested_demand(case, demand), baselines=baselines,
+                  trip_reserve=trip_reserve)
 
 
 SPLIT_TOLERANCE = 1e-3

@@ -106,6 +106,16 @@ class UnitColumns(_Schema):
     power: PowerColumn | None = None
     available: Column | None = Field(None, description="1/0 (true/false, yes/no, on/off): "
                                      "whether the unit could have run that hour.")
+    suction_pressure: Column | None = Field(None, description="The unit's own suction "
+                                            "pressure (calibration); default the header's.")
+    suction_temperature: Column | None = Field(None, description="The unit's own suction "
+                                               "temperature (calibration); default the "
+                                               "header's.")
+    discharge_pressure: Column | None = Field(None, description="The unit's own discharge "
+                                              "pressure (calibration); default the header's.")
+    discharge_temperature: Column | None = Field(None, description="The unit's discharge "
+                                                 "temperature, before any cooler "
+                                                 "(calibration needs it).")
 
 
 class ColumnMapping(_Schema):

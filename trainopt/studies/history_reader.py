@@ -26,7 +26,7 @@ import pandas as pd
 
 from trainopt.errors import InputError
 from trainopt.physics.units import FlowBasis, Kind
-from trainopt.studies.history_columns import NEGATIVE_ZERO_FRACTION, _Reader
+from trainopt.studies.history_columns import NEGATIVE_ZERO_FRACTION, _linear, _Reader
 from trainopt.studies.history_mapping import (
     Column,
     ColumnMapping,
@@ -69,6 +69,11 @@ __all__ = [
 ]
 
 
+_UNIT_STATES = {"suction_pressure": Kind.PRESSURE, "suction_temperature": Kind.TEMPERATURE,
+                "discharge_pressure": Kind.PRESSURE, "discharge_temperature": Kind.TEMPERATURE}
+"""Optional per-unit state columns (used by the calibration)."""
+
+
 @dataclass
 class History:
     """Operating history in SI, one row per timestamp.
@@ -81,7 +86,10 @@ class History:
         [K]; ``gas`` (label); ``station_flow``; per unit ``<unit>.flow``,
         ``<unit>.recycle`` (flows in the SI unit of their basis, see ``flow_basis``),
         ``<unit>.valve`` [-], ``<unit>.speed`` [1/s], ``<unit>.power`` [W],
-        ``<unit>.available`` (bool), and ``line`` (file line of the row).
+        ``<unit>.available`` (bool), optional ``<unit>.suction_pressure``,
+        ``<unit>.discharge_pressure`` [Pa], ``<unit>.suction_temperature``,
+        ``<unit>.discharge_temperature`` [K] (NaN where missing), and ``line`` (file line
+        of the row).
     mapping : ColumnMapping
     flow_basis : dict of str to (FlowBasis, str or None)
         Per flow column, its basis and the reference-conditions key of standard volumes.
@@ -185,6 +193,12 @@ def read_history(path: str | Path, mapping: ColumnMapping | str | Path, case,
                                                    required=False)
         if unit.available:
             out[f"{name}.available"] = reader.flag(unit.available, key + ".available")
+        for state, kind in _UNIT_STATES.items():
+            spec = getattr(unit, state)
+            if spec is not None:  # never skips the row: gaps are NaN, counted by calibration
+                a, b = _linear(spec.unit, kind, f"{key}.{state}", case.atmospheric_pressure)
+                out[f"{name}.{state}"] = a * reader.numbers(spec.column, f"{key}.{state}",
+                                                            required=False) + b
     bad = reader.bad
     pair = (out["discharge_pressure"] <= out["suction_pressure"]) & ~bad.any(axis=1)
     bad["discharge pressure not above suction pressure"] = pair
@@ -271,7 +285,8 @@ def _mapped_columns(mapping: ColumnMapping):
         if spec is not None:
             yield f"station.{key}", spec.column
     for name, unit in mapping.units.items():
-        for key in ("flow", "recycle", "recycle_valve", "speed", "power", "available"):
+        for key in ("flow", "recycle", "recycle_valve", "speed", "power", "available",
+                    *_UNIT_STATES):
             spec = getattr(unit, key)
             if spec is not None:
                 yield f"units.{name}.{key}", spec.column

@@ -21,12 +21,22 @@ from trainopt.machines.maps.fit import (
     fit_map_file,
     load_map,
 )
+from trainopt.machines.maps.least_flow import (
+    ControlLine,
+    LeastFlowRule,
+    parse_least_flow_rule,
+)
 from trainopt.machines.maps.margins import (
     control_line_margin,
     speed_margins,
     stonewall_margin,
     surge_margin_at_head,
     surge_margin_at_speed,
+)
+from trainopt.machines.maps.plausibility import (
+    MapUnitWarning,
+    check_map_units,
+    flow_coefficient_and_tip_speed,
 )
 from trainopt.machines.maps.table import (
     MapTable,
@@ -38,19 +48,25 @@ from trainopt.machines.maps.table import (
 __all__ = [
     "DEFAULT_CONTROL_LINE_OFFSET",
     "CompressorMap",
+    "ControlLine",
+    "LeastFlowRule",
     "HeadBasis",
     "MapFit",
     "MapRangeWarning",
     "MapTable",
+    "MapUnitWarning",
     "PointKind",
     "SpeedDependence",
     "TestConditions",
+    "check_map_units",
     "control_line_margin",
     "fan_law_departure",
     "fit_map",
     "fit_map_file",
+    "flow_coefficient_and_tip_speed",
     "load_map",
     "map_from_coefficients",
+    "parse_least_flow_rule",
     "read_map_source",
     "speed_margins",
     "stonewall_margin",

@@ -15,8 +15,9 @@ from trainopt.machines.maps.compressor_map import (
     HeadBasis,
     HeadCurve,
     Monomials,
-    check_map_shape,
 )
+from trainopt.machines.maps.plausibility import check_map_units
+from trainopt.machines.maps.shape import check_map_shape
 from trainopt.physics.units import Kind, parse_quantity
 
 
@@ -31,6 +32,7 @@ def map_from_coefficients(
     name: str,
     basis: HeadBasis = HeadBasis.ISENTROPIC,
     source: str = "",
+    impeller_diameter: float | None = None,
 ) -> CompressorMap:
     """Build a map from coefficients published in the GasLib layout.
 
@@ -52,6 +54,9 @@ def map_from_coefficients(
         Basis of head and efficiency; GasLib maps are adiabatic (isentropic).
     source : str
         Citation or file, for messages.
+    impeller_diameter : float, optional
+        Impeller outer diameter [m], for the unit check
+        (:func:`~trainopt.machines.maps.plausibility.check_map_units`).
 
     Returns
     -------
@@ -63,7 +68,7 @@ def map_from_coefficients(
     InputError
         If the coefficients are not 9, 9, 3, 3 numbers, the speed range is empty, or the
         map breaks the physics inside its range (see
-        :func:`~trainopt.machines.maps.compressor_map.check_map_shape`).
+        :func:`~trainopt.machines.maps.shape.check_map_shape`).
 
     References
     ----------
@@ -110,10 +115,13 @@ def map_from_coefficients(
         source=source,
     )
     check_map_shape(compressor_map, field_name)
+    check_map_units(compressor_map, field_name, impeller_diameter)
     return compressor_map
 
 
-def coefficient_map_from_yaml(raw, marks, name, basis, path) -> CompressorMap:
+def coefficient_map_from_yaml(
+    raw, marks, name, basis, path, *, impeller_diameter=None
+) -> CompressorMap:
     """A map from the ``coefficients`` mapping of a map file (``marks``: key -> location)."""
     keys = {"layout", "speed_min", "speed_max", "head", "efficiency", "surge", "stonewall"}
     if not isinstance(raw, dict):
@@ -155,4 +163,5 @@ def coefficient_map_from_yaml(raw, marks, name, basis, path) -> CompressorMap:
         name=name,
         basis=basis,
         source=path,
+        impeller_diameter=impeller_diameter,
     )

@@ -20,7 +20,9 @@ from dataclasses import dataclass, replace
 
 import numpy as np
 
-from trainopt.errors import InputError
+from trainopt.errors import TrainoptWarning
+from trainopt.machines.maps.roots import RANGE_TOLERANCE as _RANGE_TOLERANCE
+from trainopt.machines.maps.roots import solve_monotone as _solve_monotone
 from trainopt.physics.compression import HeadBasis  # one enum for maps and compression
 
 DEFAULT_CONTROL_LINE_OFFSET = 0.10
@@ -29,11 +31,8 @@ DEFAULT_CONTROL_LINE_OFFSET = 0.10
 10 % of surge flow is common practice for the margin an anti-surge controller keeps;
 each unit may set its own."""
 
-_RANGE_TOLERANCE = 1e-9
-"""Relative slack [-] below which a query counts as on the edge of the tested range."""
 
-
-class MapRangeWarning(UserWarning):
+class MapRangeWarning(TrainoptWarning):
     """A map was evaluated outside its tested speed or flow range."""
 
 
@@ -197,8 +196,10 @@ class CompressorMap:
     -----
     The tested domain is ``speed_min <= N <= speed_max`` and
     ``Q_surge(N) <= Q <= Q_stonewall(N)``. Within it the map is checked, when built, to
-    give head falling with flow and rising with speed, surge and stonewall flows and heads
-    rising with speed, and efficiency in (0, 1]; the inverse evaluations rely on this.
+    give head rising with speed at a fixed flow, surge, peak and stonewall heads rising
+    with speed, surge and stonewall flows rising with speed, and efficiency in (0, 1]; the
+    inverse evaluations rely on this. Head may be flat or rise with flow between the surge
+    flow and the peak of a speed line (:mod:`trainopt.machines.maps.shape`).
     """
 
     name: str
@@ -248,33 +249,95 @@ class CompressorMap:
 
     # inverse evaluations (tested domain only, NaN elsewhere) -------------------------
 
-    def surge_flow_at_head(self, head) -> np.ndarray:
-        """Surge flow [m³/s] at head [J/kg]; NaN outside the surge heads of the tested speeds."""
+    def surge_flow_at_head(self, head, *, extend: bool = False) -> np.ndarray:
+        """Surge flow [m³/s] at head [J/kg]; NaN outside the surge heads of the tested speeds.
+
+        With ``extend``, outside them the fan-law parabola through the end surge point
+        (see :func:`trainopt.machines.maps.least_flow.surge_flow_extended`).
+        """
+        if extend:
+            from trainopt.machines.maps.least_flow import surge_flow_extended
+
+            return _out(surge_flow_extended(self, head)[0])
         return _out(self._boundary_flow_at_head(self.surge_line, head))
 
     def stonewall_flow_at_head(self, head) -> np.ndarray:
         """Stonewall flow [m³/s] at head [J/kg]; NaN outside the tested speeds."""
         return _out(self._boundary_flow_at_head(self.stonewall_line, head))
 
-    def control_line_flow_at_head(self, head, offset=DEFAULT_CONTROL_LINE_OFFSET) -> np.ndarray:
-        """Surge control line flow ``(1 + offset) Q_surge(H)`` [m³/s] at head [J/kg].
+    def control_line_flow_at_head(
+        self, head, offset=DEFAULT_CONTROL_LINE_OFFSET, rule=None, *, extend: bool = False
+    ) -> np.ndarray:
+        """Surge control line flow ``(1 + offset) Q_least(H)`` [m³/s] at head [J/kg].
 
         Parameters
         ----------
         head : array_like
             Head [J/kg].
         offset : array_like
-            Control line offset as a fraction of the surge flow at the same head [-];
+            Control line offset as a fraction of the least flow at the same head [-];
             default 0.10 (common practice).
+        rule : LeastFlowRule or str, optional
+            Which line sets the least flow ``Q_least``: the surge line (default), the
+            speed-line peak, or the larger (see :meth:`control_line`).
+        extend : bool
+            Extend the lines below and above their tested heads by the fan-law parabola
+            (see :func:`trainopt.machines.maps.least_flow.surge_flow_extended`).
         """
-        return _out((1.0 + np.asarray(offset, dtype=float)) * self.surge_flow_at_head(head))
+        return _out(self.control_line(head, offset, rule, extend=extend).flow)
+
+    def control_line(
+        self, head, offset=DEFAULT_CONTROL_LINE_OFFSET, rule=None, *, extend: bool = False
+    ):
+        """The surge control line at head [J/kg] under a least-flow rule, and what binds.
+
+        Returns
+        -------
+        trainopt.machines.maps.least_flow.ControlLine
+            Control line flow, surge and peak flows [m³/s], which line binds and whether the
+            value was extrapolated; see :func:`trainopt.machines.maps.least_flow.control_line`.
+        """
+        from trainopt.machines.maps.least_flow import LeastFlowRule, control_line
+
+        return control_line(
+            self, head, offset, LeastFlowRule.SURGE_LINE if rule is None else rule, extend=extend
+        )
+
+    def peak_flow_at_speed(self, speed) -> np.ndarray:
+        """Flow [m³/s] of the highest head on the speed line at speed [1/s].
+
+        The surge flow where head falls with flow all along the line.
+        """
+        from trainopt.machines.maps.least_flow import peak_flow_at_speed
+
+        return _out(peak_flow_at_speed(self, speed))
+
+    def peak_flow_at_head(self, head) -> np.ndarray:
+        """Flow [m³/s] of the speed-line peak whose head is ``head`` [J/kg].
+
+        NaN outside the peak heads of the tested speeds.
+        """
+        from trainopt.machines.maps.least_flow import peak_flow_at_head
+
+        return _out(peak_flow_at_head(self, head))
 
     def flow_for(self, speed, head) -> np.ndarray:
-        """Flow [m³/s] giving head [J/kg] at speed [1/s], between surge and stonewall; else NaN."""
+        """Flow [m³/s] giving head [J/kg] at speed [1/s] on the stable part of the line.
+
+        Notes
+        -----
+        The answer lies between the peak of the speed line (its surge flow where head falls
+        all along it) and its stonewall flow, where head falls with flow, so it is unique;
+        where a line rises right of its surge flow, a head between the surge and peak heads
+        is also met left of the peak, and that second flow is not returned. NaN where no
+        flow in that range gives the head.
+        """
+        from trainopt.machines.maps.least_flow import peak_flow_at_speed
+
         speed, head = np.broadcast_arrays(np.asarray(speed, float), np.asarray(head, float))
         inside = self._speed_inside(speed)
         speed = np.where(inside, speed, np.nan)
-        low = self.surge_line.flow_at_speed(self.head_surface, speed)
+        low = peak_flow_at_speed(self, speed)
         high = self.stonewall_line.flow_at_speed(self.head_surface, speed)
         flow = _solve_monotone(lambda q: self.head_surface(q, speed) - head, low, high, head)
         return _out(flow)
@@ -430,119 +493,3 @@ def _out(values) -> np.ndarray:
     """Numpy scalar for 0-d results, the array otherwise."""
     values = np.asarray(values, dtype=float)
     return values[()] if values.ndim == 0 else values
-
-
-def _solve_monotone(func, lo, hi, scale, *, iterations: int = 200) -> np.ndarray:
-    """Vectorised root of a function monotone on each bracket ``[lo, hi]``.
-
-    Illinois variant of regula falsi (Dowell, M., Jarratt, P. 1971, BIT 11:168-174),
-    superlinear and bracketed; it stops where ``|func| <= 1e-13 scale`` or the bracket has
-    shrunk to rounding. Returns NaN where the bracket is NaN or ``func`` has the same sign
-    at both ends; a bracket end within ``_RANGE_TOLERANCE * scale`` of a root (a root on the
-    edge of the tested domain, where the bracket itself came from a root) is the root.
-    ``scale`` is the size of the values ``func`` compares (e.g. the target head).
-    """
-    lo, hi = np.broadcast_arrays(np.asarray(lo, float), np.asarray(hi, float))
-    lo, hi = lo.copy(), hi.copy()
-    scale = np.broadcast_to(np.maximum(np.abs(scale), 1e-300), lo.shape)
-    ftol = 1e-13 * scale
-    f_lo, f_hi = func(lo), func(hi)
-    root = np.full(lo.shape, np.nan)
-    done = ~(np.isfinite(f_lo) & np.isfinite(f_hi))
-    for end, f_end in ((lo, f_lo), (hi, f_hi)):
-        hit = ~done & (np.abs(f_end) <= _RANGE_TOLERANCE * scale)
-        root[hit], done = end[hit], done | hit
-    done |= np.sign(f_lo) == np.sign(f_hi)
-    side = np.zeros(lo.shape, dtype=int)
-    for _ in range(iterations):
-        if done.all():
-            break
-        with np.errstate(divide="ignore", invalid="ignore"):
-            x = (lo * f_hi - hi * f_lo) / (f_hi - f_lo)
-        x = np.where(
-            np.isfinite(x) & (x >= np.minimum(lo, hi)) & (x <= np.maximum(lo, hi)),
-            x,
-            0.5 * (lo + hi),
-        )
-        x = np.where(done, lo, x)
-        f_x = func(x)
-        same_as_lo = np.sign(f_x) == np.sign(f_lo)
-        move_lo, move_hi = ~done & same_as_lo, ~done & ~same_as_lo
-        f_hi = np.where(move_lo & (side == -1), 0.5 * f_hi, f_hi)
-        f_lo = np.where(move_hi & (side == 1), 0.5 * f_lo, f_lo)
-        lo, f_lo = np.where(move_lo, x, lo), np.where(move_lo, f_x, f_lo)
-        hi, f_hi = np.where(move_hi, x, hi), np.where(move_hi, f_x, f_hi)
-        side = np.where(move_lo, -1, np.where(move_hi, 1, side))
-        converged = ~done & ((np.abs(f_x) <= ftol) | (np.abs(hi - lo) <= 4e-16 * np.abs(x)))
-        root[converged] = x[converged]
-        done |= converged
-    return root
-
-
-def check_map_shape(compressor_map: CompressorMap, field: str, samples: int = 41) -> None:
-    """Refuse a map whose shape breaks the physics inside its tested domain.
-
-    Parameters
-    ----------
-    compressor_map : CompressorMap
-        The map to check.
-    field : str
-        Where the map came from, for the error message.
-    samples : int
-        Grid points per direction.
-
-    Raises
-    ------
-    InputError
-        If, on a grid over the tested domain, the surge flow is not below the stonewall
-        flow, a boundary flow or head does not rise with speed, head does not fall with flow
-        along a speed line or rise with speed at a fixed flow, or efficiency leaves (0, 1].
-    """
-    m = compressor_map
-    fix = "check the map's points and units, or give more speed lines or points"
-    flows, speed_column = m.tested_grid(samples if m.speed_max > m.speed_min else 1, samples)
-    speeds, surge, stonewall = speed_column[:, 0], flows[:, 0], flows[:, -1]
-    rpm = speeds * 60.0
-
-    def refuse(problem, where):
-        raise InputError(field, f"the map {problem}, worst near {rpm[where]:.0f} rpm", fix)
-
-    for name, boundary in (("surge", surge), ("stonewall", stonewall)):
-        missing = ~(np.isfinite(boundary) & (boundary > 0))
-        if np.any(missing):
-            refuse(f"has no positive {name} flow", int(np.argmax(missing)))
-    if np.any(surge >= stonewall):
-        refuse(
-            "has its surge flow at or above its stonewall flow", int(np.argmax(surge >= stonewall))
-        )
-    heads = m.head_surface(flows, speed_column)
-    efficiency = m.efficiency_surface(flows, speed_column)
-    rising = np.any(np.diff(heads, axis=1) >= 0, axis=1)
-    if np.any(rising):
-        rise = np.max(heads, axis=1) / heads[:, 0] - 1
-        refuse(
-            f"gives head rising with flow along its speed lines (up to {100 * rise.max():.2g} "
-            "% above the head at the surge flow)",
-            int(np.argmax(rise)),
-        )
-    bad = ~((efficiency > 0) & (efficiency <= 1))
-    if np.any(bad):
-        refuse(
-            f"gives efficiency {efficiency[bad][0]:.3f}, outside (0, 1]", int(np.argmax(bad.any(1)))
-        )
-    if len(speeds) == 1:
-        return
-    for name, flows_b in (("surge", surge), ("stonewall", stonewall)):
-        if np.any(np.diff(flows_b) <= 0):
-            refuse(f"has its {name} flow falling with speed", int(np.argmax(np.diff(flows_b) <= 0)))
-        boundary_heads = m.head_surface(flows_b, speeds)
-        if np.any(np.diff(boundary_heads) <= 0):
-            refuse(
-                f"has its {name} head falling with speed",
-                int(np.argmax(np.diff(boundary_heads) <= 0)),
-            )
-    upper = m.head_surface(flows[:-1], speeds[1:, None])
-    inside = (flows[:-1] >= surge[1:, None]) & (flows[:-1] <= stonewall[1:, None])
-    crossing = inside & (upper <= heads[:-1])
-    if np.any(crossing):
-        refuse("gives head falling with speed at a fixed flow", int(np.argmax(crossing.any(1))))

@@ -23,8 +23,9 @@ from trainopt.machines.maps.compressor_map import (
     CompressorMap,
     Monomials,
     SpeedCurve,
-    check_map_shape,
 )
+from trainopt.machines.maps.plausibility import check_map_units
+from trainopt.machines.maps.shape import check_map_shape
 from trainopt.machines.maps.table import MapTable, PointKind, read_map_source
 
 MAX_FLOW_DEGREE = 3
@@ -75,6 +76,11 @@ class MapFit:
         Speed dependence used.
     head_degree, efficiency_degree : int
         Degree in the flow coefficient of the head and efficiency fits.
+    conversion : pandas.DataFrame or None
+        Heads converted from pressure ratio or discharge pressure, per point (see
+        :attr:`MapTable.conversion`); None when the table gave head.
+    conversion_note : str
+        How the heads were converted; empty when the table gave head.
     """
 
     map: CompressorMap
@@ -83,6 +89,8 @@ class MapFit:
     speed_dependence: SpeedDependence
     head_degree: int
     efficiency_degree: int
+    conversion: pd.DataFrame | None = None
+    conversion_note: str = ""
 
     def summary(self) -> dict[str, float]:
         """Overall residuals: RMS and maximum magnitude of each error column [-]."""
@@ -190,8 +198,18 @@ def fit_map(
         f"{table.path}: fitted with {choice.value} speed "
         f"dependence, degrees {head_degree} (head) and {efficiency_degree} (efficiency)",
     )
+    check_map_units(compressor_map, table.path, table.impeller_diameter)
     points, line_table = _residuals(compressor_map, table)
-    return MapFit(compressor_map, points, line_table, choice, head_degree, efficiency_degree)
+    return MapFit(
+        compressor_map,
+        points,
+        line_table,
+        choice,
+        head_degree,
+        efficiency_degree,
+        table.conversion,
+        table.conversion_note,
+    )
 
 
 def fit_map_file(path: str | Path) -> MapFit:

@@ -6,7 +6,8 @@ The formulas are written in docs/maps.md; they are:
 
 - surge margin at constant speed ``Q / Q_surge(N) - 1``
 - surge margin at constant head ``Q / Q_surge(H) - 1``
-- margin to the surge control line ``Q / ((1 + offset) Q_surge(H)) - 1``
+- margin to the surge control line ``Q / ((1 + offset) Q_least(H)) - 1``, with ``Q_least``
+  set by the unit's least-flow rule (surge line, speed-line peak, or the larger)
 - stonewall margin at constant speed ``1 - Q / Q_stonewall(N)``
 - speed margins ``N / N_min - 1`` and ``1 - N / N_max``
 """
@@ -40,7 +41,7 @@ def surge_margin_at_speed(compressor_map: CompressorMap, flow, speed, *, warn: b
     return np.asarray(flow, float) / compressor_map.surge_flow_at_speed(speed, warn=warn) - 1.0
 
 
-def surge_margin_at_head(compressor_map: CompressorMap, flow, head):
+def surge_margin_at_head(compressor_map: CompressorMap, flow, head, *, extend: bool = False):
     """Surge margin at constant head, ``Q / Q_surge(H) - 1`` [-].
 
     Parameters
@@ -51,20 +52,29 @@ def surge_margin_at_head(compressor_map: CompressorMap, flow, head):
         Actual inlet volume flow [m³/s].
     head : array_like
         Head [J/kg] on the map's basis.
+    extend : bool
+        Beyond the surge heads of the tested speeds, use the fan-law parabola through the
+        end surge point (docs/maps.md); otherwise NaN there.
 
     Returns
     -------
     numpy.ndarray
-        Flow above the surge flow at the same head, as a fraction of it [-]; NaN where the
-        head lies outside the surge heads of the tested speeds.
+        Flow above the surge flow at the same head, as a fraction of it [-].
     """
-    return np.asarray(flow, float) / compressor_map.surge_flow_at_head(head) - 1.0
+    surge = compressor_map.surge_flow_at_head(head, extend=extend)
+    return np.asarray(flow, float) / surge - 1.0
 
 
 def control_line_margin(
-    compressor_map: CompressorMap, flow, head, offset=DEFAULT_CONTROL_LINE_OFFSET
+    compressor_map: CompressorMap,
+    flow,
+    head,
+    offset=DEFAULT_CONTROL_LINE_OFFSET,
+    rule=None,
+    *,
+    extend: bool = False,
 ):
-    """Margin to the surge control line at constant head, ``Q / ((1 + offset) Q_surge(H)) - 1``.
+    """Margin to the surge control line at constant head, ``Q / ((1 + offset) Q_least(H)) - 1``.
 
     Parameters
     ----------
@@ -77,6 +87,11 @@ def control_line_margin(
     offset : array_like
         Control line offset as a fraction of the surge flow at the same head [-];
         default 0.10 (common practice), settable per unit.
+    rule : LeastFlowRule or str, optional
+        Which line sets the least flow ``Q_least``: the surge line (default), the peak of
+        the speed line, or the larger of the two.
+    extend : bool
+        Extend the lines beyond their tested heads by the fan-law parabola.
 
     Returns
     -------
@@ -84,7 +99,8 @@ def control_line_margin(
         Flow above the control line flow, as a fraction of it [-]; negative means the
         anti-surge controller would open the recycle valve.
     """
-    return np.asarray(flow, float) / compressor_map.control_line_flow_at_head(head, offset) - 1.0
+    line = compressor_map.control_line_flow_at_head(head, offset, rule, extend=extend)
+    return np.asarray(flow, float) / line - 1.0
 
 
 def stonewall_margin(compressor_map: CompressorMap, flow, speed, *, warn: bool = True):

@@ -16,7 +16,6 @@ from pathlib import Path
 
 import numpy as np
 import pandas as pd
-import yaml
 
 from trainopt.errors import InputError
 from trainopt.machines.maps.coefficients import coefficient_map_from_yaml
@@ -24,6 +23,13 @@ from trainopt.machines.maps.compressor_map import (
     CompressorMap,
     HeadBasis,
 )
+from trainopt.machines.maps.metadata import (
+    TestConditions,
+    read_basis,
+    read_test_conditions,
+    read_yaml_with_marks,
+)
+from trainopt.machines.maps.pressure_curves import PRESSURE_COLUMNS, heads_from_pressures
 from trainopt.physics.units import Kind, parse_quantity
 
 MIN_POINTS_PER_LINE = 3
@@ -37,27 +43,6 @@ class PointKind(Enum):
     SPEED_LINE = ""
     SURGE = "surge"
     STONEWALL = "stonewall"
-
-
-@dataclass(frozen=True)
-class TestConditions:
-    """Gas and suction conditions of the test that produced a map (for the record).
-
-    Parameters
-    ----------
-    gas : str or dict
-        Description of the test gas, or its composition as mole fractions [-].
-    suction_pressure : float or None
-        Absolute suction pressure of the test [Pa].
-    suction_temperature : float or None
-        Suction temperature of the test [K].
-    """
-
-    __test__ = False  # not a pytest test class
-
-    gas: str | dict[str, float] | None = None
-    suction_pressure: float | None = None
-    suction_temperature: float | None = None
 
 
 @dataclass(frozen=True, eq=False)
@@ -88,6 +73,14 @@ class MapTable:
         Fit option from the metadata (``fit.speed_dependence``), if given.
     speed_dependence_field : str
         Where that option was written (``file:line:column``).
+    impeller_diameter : float or None
+        Impeller outer diameter [m], if stated (``impeller_diameter``), for the unit check.
+    conversion : pandas.DataFrame or None
+        Where the table gave pressure ratio or discharge pressure instead of head, the
+        conversion per point (see
+        :func:`~trainopt.machines.maps.pressure_curves.heads_from_pressures`).
+    conversion_note : str
+        One line saying how heads were converted; empty when the table gave head.
     """
 
     name: str
@@ -100,6 +93,9 @@ class MapTable:
     description: str = ""
     speed_dependence: str | None = None
     speed_dependence_field: str = ""
+    impeller_diameter: float | None = None
+    conversion: pd.DataFrame | None = None
+    conversion_note: str = ""
 
     @property
     def speed_lines(self) -> list[pd.DataFrame]:
@@ -114,16 +110,30 @@ _COLUMNS = {
     "head": Kind.HEAD,
     "efficiency": Kind.DIMENSIONLESS,
     "point": None,
+    "pressure_ratio": Kind.DIMENSIONLESS,
+    "discharge_pressure": Kind.PRESSURE,
 }
-_REQUIRED = ("speed", "flow", "head")
+_REQUIRED = ("speed", "flow")
+_HEAD_COLUMNS = ("head", *PRESSURE_COLUMNS)
 _EXAMPLE = {
     "speed": "speed [rpm]",
     "flow": "flow [m3/s]",
     "head": "head [kJ/kg]",
     "efficiency": "efficiency [-]",
+    "pressure_ratio": "pressure_ratio [-]",
+    "discharge_pressure": "discharge_pressure [bar]",
 }
 _HEADER_CELL = re.compile(r"^\s*([A-Za-z_]+)\s*(?:\[\s*(.*?)\s*\])?\s*$")
-_METADATA_KEYS = {"name", "description", "basis", "table", "coefficients", "test_conditions", "fit"}
+_METADATA_KEYS = {
+    "name",
+    "description",
+    "basis",
+    "table",
+    "coefficients",
+    "test_conditions",
+    "fit",
+    "impeller_diameter",
+}
 
 
 def read_map_source(path: str | Path) -> MapTable | CompressorMap:
@@ -159,16 +169,24 @@ def read_map_source(path: str | Path) -> MapTable | CompressorMap:
         meta_path = path
     if not meta_path.exists():
         raise InputError(str(meta_path), "no such map file")
-    meta, marks = _read_yaml(meta_path)
+    meta, marks = read_yaml_with_marks(meta_path)
     for key in meta:
         if key not in _METADATA_KEYS:
             raise InputError(
                 marks[key], f"unknown key {key!r}", f"use only {', '.join(sorted(_METADATA_KEYS))}"
             )
     name = str(meta.get("name", meta_path.stem))
-    basis = _basis(meta, marks, meta_path)
+    basis = read_basis(meta, marks, meta_path)
+    diameter = None
+    if meta.get("impeller_diameter") is not None:
+        where = marks["impeller_diameter"]
+        diameter = parse_quantity(meta["impeller_diameter"], Kind.LENGTH, where)
+        if not diameter > 0:
+            raise InputError(where, "is not positive", "give the impeller diameter, e.g. '0.45 m'")
     if "coefficients" in meta:
-        return coefficient_map_from_yaml(meta["coefficients"], marks, name, basis, str(meta_path))
+        return coefficient_map_from_yaml(
+            meta["coefficients"], marks, name, basis, str(meta_path), impeller_diameter=diameter
+        )
     if "table" not in meta:
         raise InputError(
             str(meta_path),
@@ -189,83 +207,12 @@ def read_map_source(path: str | Path) -> MapTable | CompressorMap:
         table_path,
         name=name,
         basis=basis,
-        test_conditions=_test_conditions(meta.get("test_conditions"), marks),
+        test_conditions=read_test_conditions(meta.get("test_conditions"), marks),
         description=str(meta.get("description", "")).strip(),
         speed_dependence=fit.get("speed_dependence"),
         speed_dependence_field=marks.get("fit.speed_dependence", marks.get("fit", "")),
+        impeller_diameter=diameter,
     )
-
-
-# metadata ------------------------------------------------------------------------------
-
-
-def _read_yaml(path: Path) -> tuple[dict, dict[str, str]]:
-    """Read a YAML mapping and, for each key path (``fit.speed_dependence``), its location."""
-    text = path.read_text()
-    try:
-        root = yaml.compose(text, Loader=yaml.SafeLoader)
-        data = yaml.safe_load(text)
-    except yaml.YAMLError as exc:
-        mark = getattr(exc, "problem_mark", None)
-        where = f"{path}:{mark.line + 1}:{mark.column + 1}" if mark else str(path)
-        raise InputError(where, f"not valid YAML: {getattr(exc, 'problem', exc)}") from exc
-    if not isinstance(data, dict):
-        raise InputError(f"{path}:1:1", "expected a mapping of keys (name, basis, table, ...)")
-    marks: dict[str, str] = {}
-
-    def walk(node, prefix):
-        if isinstance(node, yaml.MappingNode):
-            for key, value in node.value:
-                mark = key.start_mark
-                marks[prefix + str(key.value)] = f"{path}:{mark.line + 1}:{mark.column + 1}"
-                walk(value, f"{prefix}{key.value}.")
-
-    walk(root, "")
-    return data, marks
-
-
-def _basis(meta: dict, marks: dict[str, str], path: Path) -> HeadBasis:
-    if "basis" not in meta:
-        raise InputError(
-            str(path), "no 'basis' key", "add 'basis: polytropic' or 'basis: isentropic'"
-        )
-    try:
-        return HeadBasis(str(meta["basis"]).strip().lower())
-    except ValueError:
-        raise InputError(
-            marks["basis"],
-            f"basis {meta['basis']!r} is not known",
-            "write polytropic or isentropic",
-        ) from None
-
-
-def _test_conditions(raw, marks: dict[str, str]) -> TestConditions:
-    if raw is None:
-        return TestConditions()
-    if not isinstance(raw, dict):
-        raise InputError(
-            marks["test_conditions"],
-            "expected a mapping (gas, suction_pressure, suction_temperature)",
-        )
-    known = {
-        "gas": None,
-        "suction_pressure": Kind.PRESSURE,
-        "suction_temperature": Kind.TEMPERATURE,
-    }
-    values = {}
-    for key, value in raw.items():
-        where = marks[f"test_conditions.{key}"]
-        if key not in known:
-            raise InputError(where, f"unknown key {key!r}", f"use {', '.join(known)}")
-        values[key] = value if known[key] is None else parse_quantity(value, known[key], where)
-    gas = values.get("gas")
-    if isinstance(gas, dict):
-        total = sum(float(x) for x in gas.values())
-        if abs(total - 1.0) > 1e-3:
-            raise InputError(
-                marks["test_conditions.gas"], f"mole fractions add up to {total:.4f}, not 1"
-            )
-    return TestConditions(**values)
 
 
 # table ---------------------------------------------------------------------------------
@@ -296,8 +243,28 @@ def _read_csv(path: Path, **metadata) -> MapTable:
             )
         records.append(_record(path, number, dict(zip(names, cells, strict=True)), factors, units))
     points = pd.DataFrame(records, columns=["speed", "flow", "head", "efficiency", "kind", "line"])
+    column = next(name for name in _HEAD_COLUMNS if name in names)
+    conversion, note = None, ""
+    if column != "head":
+        points[column] = points["head"]
+        heads, conversion, note = heads_from_pressures(
+            points,
+            column,
+            metadata["test_conditions"],
+            metadata["basis"],
+            str(path),
+            header_line,
+        )
+        points = points.drop(columns=column).assign(head=heads)
+        factors, units = {**factors, "head": 1e3}, {**units, "head": "kJ/kg (converted)"}
     table = MapTable(
-        points=points, path=str(path), header_line=header_line, units=units, **metadata
+        points=points,
+        path=str(path),
+        header_line=header_line,
+        units=units,
+        conversion=conversion,
+        conversion_note=note,
+        **metadata,
     )
     _check_lines(table, factors)
     return table
@@ -334,8 +301,16 @@ def _header(path: Path, number: int, text: str):
             raise InputError(
                 f"{path}:{number}:{name}",
                 f"no {name!r} column",
-                f"the header needs {', '.join(_REQUIRED)} with units",
+                "the header needs speed, flow and head (or pressure_ratio or "
+                "discharge_pressure) with units",
             )
+    given = [name for name in _HEAD_COLUMNS if name in names]
+    if len(given) != 1:
+        raise InputError(
+            f"{path}:{number}:{given[1] if given else 'head'}",
+            "no 'head' column" if not given else f"both {given[0]!r} and {given[1]!r} given",
+            "give one of head, pressure_ratio or discharge_pressure (absolute), with its unit",
+        )
     return names, factors, units
 
 
@@ -380,7 +355,7 @@ def _record(path: Path, number: int, cells: dict[str, str], factors, units) -> t
     return (
         values["speed"],
         values["flow"],
-        values["head"],
+        next(values[name] for name in _HEAD_COLUMNS if name in values),
         values.get("efficiency", np.nan),
         kind,
         number,
@@ -388,7 +363,11 @@ def _record(path: Path, number: int, cells: dict[str, str], factors, units) -> t
 
 
 def _check_lines(table: MapTable, factors: dict[str, float]) -> None:
-    """Refuse speed lines that are too short, unordered, rising or crossing."""
+    """Refuse speed lines that are too short, unordered or crossing.
+
+    Head may be flat or rise with flow along a line (often so between the vendor's surge
+    point and the peak of the line); the fitted map is checked for what it must satisfy.
+    """
     path = table.path
 
     def show(name, value):
@@ -446,17 +425,6 @@ def _check_lines(table: MapTable, factors: dict[str, float]) -> None:
                 f"{path}:{first}:point",
                 f"the speed line at {speed} has no stonewall point but other lines do",
                 "mark the highest-flow point 'stonewall' on every line or on none",
-            )
-        rising = np.diff(line["head"].to_numpy()) >= 0
-        if rising.any():
-            i = int(np.argmax(rising))
-            raise InputError(
-                f"{path}:{int(line.line.iloc[i + 1])}:head",
-                f"head rises with flow on the speed line at {speed}: "
-                f"{show('head', line['head'].iloc[i + 1])} at "
-                f"{show('flow', line.flow.iloc[i + 1])} after "
-                f"{show('head', line['head'].iloc[i])} at {show('flow', line.flow.iloc[i])}",
-                "head must fall with flow along a speed line; check the points",
             )
     for lower, upper in zip(lines, lines[1:], strict=False):
         for own, other, sign in ((lower, upper, 1.0), (upper, lower, -1.0)):
