@@ -38,7 +38,11 @@ For each station and a spread of demands that some commitment carries without re
   proof of optimality;
 - the gap: (true power of trainopt's split - true power of the best NLP split) / the
   latter, both evaluated by ``evaluate_split`` (negative: trainopt found less power);
-- the speed-up: NLP time per demand over trainopt's time per demand, three ways.
+- the speed-up: NLP time per demand over trainopt's time per demand, three ways;
+- the plain dynamic program (``benchmarks/dp_reference.py``: each unit's true power on a
+  4,000-point sample, a DP over the units on a 4,000-step flow grid), its split evaluated
+  by ``evaluate_split`` like trainopt's: its time per demand and its true power, with
+  trainopt's over the DP's as ratios.
 
 Run: ``python benchmarks/station_true_model.py`` (two to four minutes on two cores).
 """
@@ -52,6 +56,7 @@ import time
 from pathlib import Path
 
 import numpy as np
+from dp_reference import DynamicProgram
 from scipy.optimize import minimize
 
 import trainopt
@@ -364,10 +369,17 @@ def run_station(family: str, base_case, plan, count: int, rng) -> dict:
     names = list(station.curves)
     dispatcher = Dispatcher(station.unit_curves())
     model = TrueStation(station, names)
+    start = time.perf_counter()
+    peer = DynamicProgram(station)
+    peer_setup = time.perf_counter() - start
     screen = Screen(model) if count in SCREEN_BUDGET else None
     rows = []
     for demand in demand_spread(model.lo, model.hi, DEMAND_COUNT):
         power, through, seconds = trainopt_answer(station, dispatcher, demand)
+        start = time.perf_counter()
+        peer_split = peer.split(demand)
+        dp_seconds = time.perf_counter() - start
+        dp_power = evaluate_split(station, peer_split).total_shaft_power
         start = time.perf_counter()
         if screen is None:
             commitments = feasible_commitments(model, demand)
@@ -382,7 +394,8 @@ def run_station(family: str, base_case, plan, count: int, rng) -> dict:
                      "answer": sum(seconds.values()), "nlp": nlp_seconds,
                      "commitments": len(commitments), "runs": runs,
                      "calls": model.calls - calls, "own_diff": abs(own - reference),
-                     "running": sum(m > 0 for m in through.values()), **seconds})
+                     "running": sum(m > 0 for m in through.values()), "dp": dp_seconds,
+                     "dp_power": dp_power, **seconds})
     optimize_seconds, optimize_diff = [], []
     for row in (rows[0], rows[len(rows) // 2], rows[-1])[:OPTIMIZE_CALLS]:
         start = time.perf_counter()
@@ -394,7 +407,7 @@ def run_station(family: str, base_case, plan, count: int, rng) -> dict:
             "breakpoints": sum(len(c.mass_flow) for c in curves),
             "formulation": dispatcher.model.formulation_summary, "reduction": reduction,
             "build": dispatcher.build_seconds, "rows": rows,
-            "screen": screen.seconds if screen else 0.0,
+            "screen": screen.seconds if screen else 0.0, "dp_setup": peer_setup,
             "optimize": statistics.median(optimize_seconds),
             "optimize_diff": max(optimize_diff)}
 
@@ -410,7 +423,8 @@ def summarise(out: dict) -> dict:
             "answer": med("answer"), "gap_med": med("gap"),
             "gap_max": max(r["gap"] for r in rows), "nlp": med("nlp"),
             "speedup_solve": med("nlp") / med("solve"), "speedup": med("nlp") / med("answer"),
-            "speedup_cold": med("nlp") / out["optimize"]}
+            "speedup_cold": med("nlp") / out["optimize"], "dp": med("dp"),
+            "dp_power_ratio": max(r["power"] / r["dp_power"] for r in rows)}
 
 
 def shown(value: float, digits: int) -> float:
@@ -424,13 +438,15 @@ def print_demands(out: dict) -> None:
           f"{out['formulation']}")
     print(f"{'demand kg/s':>11} {'running':>7} {'trainopt kW':>12} {'NLP kW':>12} "
           f"{'gap kW':>7} {'gap %':>7} {'commitments':>11} {'SLSQP runs':>10} "
-          f"{'operate calls':>13} {'solve ms':>8} {'answer ms':>9} {'NLP s':>6}")
+          f"{'operate calls':>13} {'solve ms':>8} {'answer ms':>9} {'NLP s':>6} "
+          f"{'DP kW':>12} {'DP ms':>6} {'power/DP':>8} {'time/DP':>7}")
     for r in out["rows"]:
         print(f"{r['demand']:11.1f} {r['running']:7d} {r['power'] / KW:12.1f} "
               f"{r['reference'] / KW:12.1f} {shown((r['power'] - r['reference']) / KW, 3):7.3f} "
               f"{shown(r['gap'] * 100, 4):7.4f} {r['commitments']:11d} {r['runs']:10d} "
               f"{r['calls']:13d} {r['solve'] * 1e3:8.1f} {r['answer'] * 1e3:9.1f} "
-              f"{r['nlp']:6.2f}")
+              f"{r['nlp']:6.2f} {r['dp_power'] / KW:12.1f} {r['dp'] * 1e3:6.1f} "
+              f"{r['power'] / r['dp_power']:8.5f} {r['answer'] / r['dp']:7.2f}")
 
 
 def verdict(ok: bool) -> str:
@@ -449,6 +465,12 @@ def print_summary(results: list[dict]) -> None:
               f"{shown(o['gap_med'] * 100, 4):9.4f} {shown(o['gap_max'] * 100, 4):7.4f} "
               f"{o['nlp']:6.2f} {o['speedup_solve']:14.0f}x {o['speedup']:5.1f}x "
               f"{o['speedup_cold']:4.1f}x")
+    print(f"\n{'family':>6} {'units':>5} {'DP set-up s':>11} {'DP ms':>6} {'answer/DP':>9} "
+          f"{'optimize/(DP set-up + DP)':>25} {'worst power/DP':>14}")
+    for o in results:
+        print(f"{o['family']:>6} {o['units']:5d} {o['dp_setup']:11.2f} {o['dp'] * 1e3:6.1f} "
+              f"{o['answer'] / o['dp']:9.2f} {o['optimize'] / (o['dp_setup'] + o['dp']):25.2f} "
+              f"{o['dp_power_ratio']:14.5f}")
     rows = [r for o in results for r in o["rows"]]
     optimize_diff = max(o["optimize_diff"] for o in results)
     own_diff = max(r["own_diff"] for r in rows)
@@ -473,7 +495,11 @@ NLP: multistart SLSQP of one demand on the true model, then evaluate_split of it
   given, and the one-off {SCREEN_POINTS}-point screen sample per unit kind (at most
   {screen * 1e3:.0f} ms a station).
 speed-up: NLP time over trainopt's; solve = the HiGHS re-solve alone; answer = solve +
-  refine + truth; cold = optimize.""")
+  refine + truth; cold = optimize.
+DP: the plain dynamic program of benchmarks/dp_reference.py on the same true model; DP ms
+  = the grid interpolation and the DP of one demand (its truth evaluation not counted);
+  DP set-up = its 4,000-point true sample per unit, once a station. Ratios above 1 mean
+  trainopt took longer or found more power.""")
 
 
 def print_targets(results: list[dict]) -> None:

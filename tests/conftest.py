@@ -7,6 +7,7 @@ composition and process; so the gases here are session-scoped and tests that nee
 dew point use the lean gas, never the NIST one.
 """
 
+import os
 from pathlib import Path
 
 import pytest
@@ -31,6 +32,19 @@ AGA8_GULF_COAST_GAS_PERCENT = {
     "propane": 0.4596, "isobutane": 0.0977, "n-butane": 0.1007, "isopentane": 0.0473,
     "n-pentane": 0.0324, "n-hexane": 0.0664,
 }
+
+
+@pytest.fixture(scope="session", autouse=True)
+def envelope_cache_folder(tmp_path_factory):
+    """Phase envelopes are cached in a folder of this test session, not the user's."""
+    folder = tmp_path_factory.mktemp("cache")
+    before = os.environ.get("TRAINOPT_CACHE_DIR")
+    os.environ["TRAINOPT_CACHE_DIR"] = str(folder)
+    yield folder
+    if before is None:
+        os.environ.pop("TRAINOPT_CACHE_DIR", None)
+    else:
+        os.environ["TRAINOPT_CACHE_DIR"] = before
 
 
 @pytest.fixture

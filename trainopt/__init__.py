@@ -8,11 +8,20 @@ The Python API the command line is built on:
 - :func:`load_case` reads and validates a station case file;
 - :func:`optimize` finds the least-power (or fuel, or cost) split of a demand;
 - :func:`evaluate` reports a split the user gives.
+
+The names are loaded on first use (:func:`__getattr__`), so ``import trainopt`` and the
+command line start without CoolProp, Pyomo, matplotlib or pandas.
 """
 
-from trainopt.case.loading import Case, load_case
-from trainopt.errors import InfeasibleError, InputError, PhysicsError, TrainoptError
-from trainopt.station.split import evaluate, optimize
+from __future__ import annotations
+
+from importlib import import_module
+from typing import TYPE_CHECKING
+
+if TYPE_CHECKING:
+    from trainopt.case.loading import Case, load_case
+    from trainopt.errors import InfeasibleError, InputError, PhysicsError, TrainoptError
+    from trainopt.station.split import evaluate, optimize
 
 __all__ = [
     "Case",
@@ -25,3 +34,29 @@ __all__ = [
     "optimize",
 ]
 __version__ = "0.1.0"
+
+_HOME = {
+    "Case": "trainopt.case.loading",
+    "load_case": "trainopt.case.loading",
+    "InfeasibleError": "trainopt.errors",
+    "InputError": "trainopt.errors",
+    "PhysicsError": "trainopt.errors",
+    "TrainoptError": "trainopt.errors",
+    "evaluate": "trainopt.station.split",
+    "optimize": "trainopt.station.split",
+}
+"""Public name -> the module that defines it."""
+
+
+def __getattr__(name: str):
+    """Load a public name from its module on first use, then keep it here."""
+    home = _HOME.get(name)
+    if home is None:
+        raise AttributeError(f"module 'trainopt' has no attribute '{name}'")
+    value = getattr(import_module(home), name)
+    globals()[name] = value
+    return value
+
+
+def __dir__() -> list[str]:
+    return sorted(set(globals()) | set(__all__))

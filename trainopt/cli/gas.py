@@ -11,9 +11,7 @@ import typer
 
 from trainopt.caution import CAUTION
 from trainopt.cli.failure import friendly
-from trainopt.physics.compression import HeadBasis, PolytropicMethod
-from trainopt.physics.gas import EquationOfState
-from trainopt.physics.units import Kind, parse_quantity
+from trainopt.physics.choices import HeadBasis, PolytropicMethod
 
 
 def _table(rows: dict, title: str) -> str:
@@ -51,6 +49,8 @@ def gas_command(
 ) -> None:
     """Print a gas's properties at a state and what compressing it to --to takes."""
     from trainopt.case.gas_file import load_gas
+    from trainopt.physics.gas import EquationOfState
+    from trainopt.physics.units import Kind, parse_quantity
     from trainopt.report.gas_properties import gas_summary
 
     models = {"gerg": EquationOfState.GERG2008, "pr": EquationOfState.PENG_ROBINSON}

@@ -26,26 +26,12 @@ from __future__ import annotations
 
 import math
 from dataclasses import dataclass
-from enum import Enum
 
 from scipy.optimize import brentq
 
 from trainopt.errors import InputError, PhysicsError
+from trainopt.physics.choices import HeadBasis, PolytropicMethod
 from trainopt.physics.gas import Gas, GasState
-
-
-class HeadBasis(Enum):
-    """Thermodynamic basis on which a head and its efficiency are stated."""
-
-    POLYTROPIC = "polytropic"
-    ISENTROPIC = "isentropic"
-
-
-class PolytropicMethod(Enum):
-    """How the polytropic head of a real gas is computed."""
-
-    SCHULTZ = "schultz"
-    PATH = "path"
 
 
 @dataclass(frozen=True)

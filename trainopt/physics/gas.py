@@ -17,13 +17,14 @@ from __future__ import annotations
 import math
 import warnings
 from dataclasses import dataclass, field
-from enum import Enum
 from functools import lru_cache
 
 import CoolProp.CoolProp as CP
 import numpy as np
 
 from trainopt.errors import InputError, PhysicsError, TwoPhaseError
+from trainopt.physics.choices import EquationOfState
+from trainopt.physics.envelope_cache import cached_envelope
 from trainopt.physics.units import REFERENCE_CONDITIONS, Flow, FlowBasis, ReferenceConditions
 
 GAS_CONSTANT = 8.314462618
@@ -65,13 +66,6 @@ for _name, (_cp, _aliases) in _COMPONENTS.items():
         _ALIAS[_alias.lower()] = _name
 
 _SUPERCRITICAL_TRACES = ("hydrogen", "helium", "argon", "oxygen", "carbon monoxide", "water")
-
-
-class EquationOfState(Enum):
-    """Equation of state used for gas states."""
-
-    GERG2008 = "HEOS"
-    PENG_ROBINSON = "PR"
 
 
 @dataclass(frozen=True)
@@ -204,18 +198,29 @@ def _dew_state(names: tuple[str, ...], fractions: tuple[float, ...]):
 
 @lru_cache(maxsize=64)
 def _envelope(names: tuple[str, ...], fractions: tuple[float, ...]) -> PhaseEnvelope | None:
+    """The traced envelope, from the disk cache when this composition was traced before."""
     if len(names) < 2:
         return None
-    state = _dew_state(names, fractions)
-    try:
-        state.build_phase_envelope("")
-        data = state.get_phase_envelope_data()
-    except ValueError:
+
+    def trace():
+        state = _dew_state(names, fractions)
+        try:
+            state.build_phase_envelope("")
+            data = state.get_phase_envelope_data()
+        except ValueError:
+            return None
+        return (list(data.T), list(data.p)) if len(data.T) >= 4 else None
+
+    traced = cached_envelope(names, fractions, _coolprop_version(), trace)
+    if traced is None:
         return None
-    t, p = np.asarray(data.T), np.asarray(data.p)
-    if len(t) < 4:
-        return None
+    t, p = np.asarray(traced[0], float), np.asarray(traced[1], float)
     return PhaseEnvelope(t, p, float(t.max()), float(p.max()), _DEW_METHOD)
+
+
+@lru_cache(maxsize=1)
+def _coolprop_version() -> str:
+    return f"{CP.get_global_param_string('version')} {CP.get_global_param_string('gitrevision')}"
 
 
 _DEW_METHOD = ("hydrocarbon dew point: CoolProp HEOS (GERG-2008 parameters) on the composition "

@@ -62,10 +62,19 @@ class Station:
     throttle : bool, optional
         Let single-section units run at minimum speed with a discharge throttle where
         their head lies below the minimum-speed line; the case's ``throttle`` by default.
+    reuse : mapping of str to LeastPowerCurve, optional
+        Curves already reduced at these conditions (for this objective and throttle
+        setting), taken as they are instead of reduced again; see
+        :class:`~trainopt.station.reduced_station.ReducedStation`.
+    duties : dict, optional
+        Compression duties already tabulated at these conditions, by head basis; shared
+        and filled in place.
     """
 
     def __init__(self, case: Case, offline: Iterable[str] = (), objective: str | None = None,
-                 throttle: bool | None = None):
+                 throttle: bool | None = None, *,
+                 reuse: Mapping[str, LeastPowerCurve] | None = None,
+                 duties: dict[HeadBasis, Duty] | None = None):
         if case.interstage_header is not None:
             raise InputError("interstage_header", "a station with a shared interstage header "
                              "has two groups of units, not one", "use trainopt.optimize (it "
@@ -78,11 +87,18 @@ class Station:
             case.train(name)
         self.status = {t.name: (UnitStatus.OFFLINE if t.name in offline else t.status)
                        for t in case.trains}
-        self._duties: dict[HeadBasis, Duty] = {}
+        self._duties: dict[HeadBasis, Duty] = {} if duties is None else duties
         self.curves: dict[str, LeastPowerCurve] = {}
         reduced: dict[tuple, LeastPowerCurve] = {}
+        reuse = reuse or {}
         for train in case.trains:
             if self.status[train.name] is UnitStatus.OFFLINE:
+                continue
+            if train.name in reuse:
+                self.curves[train.name] = reuse[train.name]
+                key = _twin_key(train) if train.is_single_section else None
+                if key is not None:
+                    reduced.setdefault(key, reuse[train.name])
                 continue
             if train.is_single_section:
                 key = _twin_key(train)
@@ -185,7 +201,8 @@ class Station:
         """Refine running units' interior flows on the sampled true model, keeping their sum.
 
         A local SLSQP solve (SciPy) from the dispatch's split, within each unit's curve
-        range; kept only if it lowers the objective.
+        range, with the splines' exact derivatives as gradient; kept only if it lowers
+        the objective.
         """
         names = [n for n, m in through.items() if m > 0]
         if len(names) < 2:
@@ -197,11 +214,17 @@ class Station:
         splines = [self.sampled_cost(n) for n in names]
         scale = max(float(sum(s(m) for s, m in zip(splines, x0, strict=True))), 1e-9)
 
+        slopes = [s.derivative() for s in splines]
+
         def f(x):
             return float(sum(s(m) for s, m in zip(splines, x, strict=True))) / scale
 
-        res = minimize(f, x0, method="SLSQP", bounds=list(zip(lo, hi, strict=True)),
-                       constraints=[{"type": "eq", "fun": lambda x: x.sum() - total}],
+        def gradient(x):
+            return np.array([float(d(m)) for d, m in zip(slopes, x, strict=True)]) / scale
+
+        res = minimize(f, x0, jac=gradient, method="SLSQP", bounds=list(zip(lo, hi, strict=True)),
+                       constraints=[{"type": "eq", "fun": lambda x: x.sum() - total,
+                                     "jac": lambda x: np.ones_like(x)}],
                        options={"ftol": 1e-13, "maxiter": 200})
         if res.success and f(res.x) < f(x0) and abs(res.x.sum() - total) < 1e-9 * total:
             out = dict(through)

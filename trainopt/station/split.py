@@ -13,22 +13,17 @@ from __future__ import annotations
 from collections.abc import Iterable, Mapping
 from dataclasses import replace
 
-import numpy as np
-
 from trainopt.case.loading import Case
-from trainopt.dispatch.solve import solve_dispatch
 from trainopt.errors import InputError
 from trainopt.machines.train import UnitStatus
 from trainopt.physics.units import Kind, parse_flow, parse_quantity
-from trainopt.station.baselines import compare_all_units, compare_baselines
 from trainopt.station.header import evaluate_header_split, optimize_header
-from trainopt.station.reduced import Station, evaluate_split, requested_demand, station_result
+from trainopt.station.reduced import Station, evaluate_split, requested_demand
+from trainopt.station.reduced_station import answer, objective_error_bound  # noqa: F401
+from trainopt.station.reduced_station import (  # noqa: F401 (kept importable from here)
+    infeasible_units_text as _infeasible_units_text,
+)
 from trainopt.station.result import StationResult
-
-
-def _infeasible_units_text(station: Station) -> str:
-    bad = [f"{n}: {c.reason}" for n, c in station.curves.items() if not c.feasible]
-    return ("; units that cannot meet today's duty: " + "; ".join(bad)) if bad else ""
 
 
 def optimize(case: Case, demand=None, offline: Iterable[str] = (), objective: str | None = None,
@@ -73,74 +68,8 @@ def optimize(case: Case, demand=None, offline: Iterable[str] = (), objective: st
                              "interstage header", "leave it out for this case")
         return optimize_header(case, demand, offline, objective, baselines)
     station = Station(case, offline, objective)
-    m_demand = requested_demand(case, demand)
-    curves = station.unit_curves()
-    if not curves:
-        reason = "no unit is available" + _infeasible_units_text(station)
-        return StationResult.infeasible(case, m_demand, reason, station.objective)
-    dispatch = solve_dispatch(curves, m_demand)
-    security = None
-    if trip_reserve is not None and dispatch.status != "infeasible":
-        from trainopt.dispatch.trip_reserve import solve_secure_dispatch, trip_share_of
-
-        share = trip_share_of(trip_reserve)
-        plain, dispatch = dispatch, solve_secure_dispatch(curves, m_demand, share)
-        security = {"share": share, "piecewise_objective_without": plain.objective,
-                    "piecewise_objective_with": dispatch.objective}
-    if dispatch.status == "infeasible":
-        return StationResult.infeasible(case, m_demand, dispatch.reason
-                                        + _infeasible_units_text(station), station.objective)
-    through = {n: dispatch.through_flow.get(n, 0.0) for n in station.curves}
-    recycle = {n: dispatch.recycle.get(n, 0.0) for n in station.curves}
-    piecewise = dispatch.objective
-    refined = station.refine({n: through[n] for n in through if recycle[n] <= 0.0})
-    through.update(refined)
-    result = station_result(station, through, recycle, m_demand)
-    result.solver = {"piecewise_objective": piecewise, "formulation": dispatch.formulation,
-                     "build_seconds": dispatch.build_seconds,
-                     "solve_seconds": dispatch.solve_seconds,
-                     "mip_gap": dispatch.mip_gap_achieved,
-                     "breakpoint_error_W": {n: c.error_bound for n, c in station.curves.items()},
-                     "objective_error_bound": {n: objective_error_bound(station, n)
-                                               for n, c in station.curves.items()
-                                               if c.feasible},
-                     "objective_unit": ("W" if station.objective != "cost" else
-                                        f"{case.economics.currency}/s"),
-                     "convex": {n: c.convex for n, c in station.curves.items()}}
-    if security is not None:
-        result.solver["trip_reserve"] = security
-    if baselines:
-        result.baselines = compare_baselines(station, result, m_demand)
-        result.baselines_all_units = compare_all_units(station, result, m_demand,
-                                                       result.baselines)
-    return result
-
-
-def objective_error_bound(station: Station, name: str) -> float:
-    """Largest gap between a unit's piecewise-linear objective and its true sample.
-
-    The breakpoints are chosen on shaft power (:mod:`trainopt.dispatch.reduction`); the
-    dispatch model interpolates the objective between them. For ``energy_input`` and
-    ``cost`` the driver's curve bends the objective differently, so its own gap is
-    measured here on the same fine true-model sample.
-
-    Parameters
-    ----------
-    station : Station
-    name : str
-        A unit with a feasible curve.
-
-    Returns
-    -------
-    float
-        [W] for ``shaft_power`` and ``energy_input``, [currency/s] for ``cost``.
-    """
-    curve = station.curves[name]
-    if station.objective == "shaft_power":
-        return float(curve.error_bound)
-    exact = station.curve_cost(name, sample=True)
-    chords = np.interp(curve.sample_flow, curve.mass_flow, station.curve_cost(name))
-    return float(np.max(np.abs(chords - exact)))
+    return answer(station, requested_demand(case, demand), baselines=baselines,
+                  trip_reserve=trip_reserve)
 
 
 SPLIT_TOLERANCE = 1e-3
