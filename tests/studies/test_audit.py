@@ -239,8 +239,27 @@ def test_run_tasks_on_two_processes():
 
     # results come back in task order whatever order they finish in (largest first)
     assert run_tasks(math.factorial, [3, 10, 5], workers=2, weights=[1, 3, 2],
-                     progress=False) == [6, 3628800, 120]
+                     progress=False, start_cost=0) == [6, 3628800, 120]
     assert run_tasks(math.factorial, [4], workers=1, progress=False) == [24]
+
+
+def test_run_tasks_keeps_short_work_in_this_process():
+    import os
+
+    from trainopt.studies.parallel import run_tasks
+
+    # tasks far shorter than a worker's start run here, one after another; a task whose
+    # time times the tasks left passes the start cost sends the rest to a pool
+    assert set(run_tasks(_process_id, range(4), workers=2, progress=False)) == {os.getpid()}
+    pids = run_tasks(_process_id, range(4), workers=2, progress=False, start_cost=1e-9)
+    assert pids[0] == os.getpid()
+    assert os.getpid() not in pids[1:]
+
+
+def _process_id(_task) -> int:
+    import os
+
+    return os.getpid()
 
 
 @pytest.mark.slow  # each spawned process imports CoolProp and Pyomo: 20-30 s on 2 cores
