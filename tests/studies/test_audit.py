@@ -263,7 +263,10 @@ def _process_id(_task) -> int:
 
 
 @pytest.mark.slow  # each spawned process imports CoolProp and Pyomo: 20-30 s on 2 cores
-def test_two_local_processes_give_the_same_answer(history, demo_case, audit):
+def test_two_local_processes_give_the_same_answer(history, demo_case, audit, monkeypatch):
+    from trainopt.studies import parallel
+
+    monkeypatch.setattr(parallel, "WORKER_START_SECONDS", 0.0)  # the pool, however short
     other = audit_history(demo_case, history, binning=Binning(min_rows=1), workers=2,
                           progress=False)
     columns = ["shaft_power_kW", "optimum_shaft_power_kW", "recycle_power_kW"]

@@ -46,7 +46,7 @@ def default_workers() -> int:
 def run_tasks(func: Callable, tasks: Sequence, *, workers: int | None = None,
               scheduler=None, weights: Sequence[float] | None = None,
               progress: bool = True, description: str = "tasks", unit: str = "task",
-              start_cost: float = WORKER_START_SECONDS) -> list:
+              start_cost: float | None = None) -> list:
     """Run ``func(task)`` for every task; return the results in the order of the tasks.
 
     Parameters
@@ -66,12 +66,12 @@ def run_tasks(func: Callable, tasks: Sequence, *, workers: int | None = None,
         Show a progress bar on stderr.
     description, unit : str
         Progress-bar label and the unit of the weights.
-    start_cost : float
-        Time [s] a local worker takes to start. Tasks run in this process while
-        ``t_last * left * (1 - 1/workers) <= start_cost`` (``t_last`` [s] the last task's
-        time, ``left`` the tasks left); the rest go to a pool once it is exceeded. 0 starts
-        the pool at once. Each task runs the same function either way, so the answers do
-        not depend on where it ran.
+    start_cost : float, optional
+        Time [s] a local worker takes to start (default :data:`WORKER_START_SECONDS`).
+        Tasks run in this process while ``t_last * left * (1 - 1/workers) <= start_cost``
+        (``t_last`` [s] the last task's time, ``left`` the tasks left); the rest go to a
+        pool once it is exceeded. 0 starts the pool at once. Each task runs the same
+        function either way, so the answers do not depend on where it ran.
 
     Returns
     -------
@@ -79,6 +79,7 @@ def run_tasks(func: Callable, tasks: Sequence, *, workers: int | None = None,
         ``func(task)`` for each task.
     """
     tasks = list(tasks)
+    start_cost = WORKER_START_SECONDS if start_cost is None else float(start_cost)
     weights = [1.0] * len(tasks) if weights is None else [float(w) for w in weights]
     order = sorted(range(len(tasks)), key=lambda i: -weights[i])
     bar = tqdm(total=sum(weights), desc=description, unit=unit, disable=not progress,
