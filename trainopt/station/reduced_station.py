@@ -31,7 +31,7 @@ from trainopt.case.loading import Case
 from trainopt.dispatch.solve import Dispatcher
 from trainopt.errors import InputError
 from trainopt.machines.train import UnitStatus
-from trainopt.station.baselines import compare_all_units, compare_baselines
+from trainopt.station.baselines import compare_both
 from trainopt.station.reduced import Station, chosen_objective, requested_demand, station_result
 from trainopt.station.result import StationResult
 
@@ -107,9 +107,8 @@ def answer(station: Station, m_demand: float, dispatcher: Dispatcher | None = No
     if security is not None:
         result.solver["trip_reserve"] = security
     if baselines:
-        result.baselines = compare_baselines(station, result, m_demand)
-        result.baselines_all_units = compare_all_units(station, result, m_demand,
-                                                       result.baselines)
+        result.baselines, result.baselines_all_units = compare_both(station, result,
+                                                                    m_demand)
     return result
 
 
