@@ -115,24 +115,49 @@ def _history(history, columns, case, since, until):
         history = read_history(history, columns, case)
     frame = history.frame
     keep = np.ones(len(frame), bool)
+    stamps = {}
     for text, side in ((since, "since"), (until, "until")):
         if text is None:
             continue
         try:
             stamp = pd.Timestamp(text)
         except (ValueError, TypeError):
+            stamp = None
+        if stamp is None or stamp is pd.NaT:
             raise InputError(f"--{side}", f"cannot read the date {text!r}",
-                             "write e.g. 2023-01-01") from None
+                             "write e.g. 2023-01-01")
         if stamp.tz is None:
             stamp = stamp.tz_localize(frame.index.tz)
+        stamps[side] = stamp
         keep &= (frame.index >= stamp) if side == "since" else (frame.index <= stamp)
     outside = int((~keep).sum())
     if outside:
         history = dataclasses.replace(history, frame=frame[keep])
     if len(history.frame) == 0:
-        raise InputError("--since/--until", "no history row lies in the period",
-                         f"the history runs from {frame.index.min()} to {frame.index.max()}")
+        raise InputError(*_empty_period(stamps, frame.index))
     return history, outside
+
+
+def _when(stamp) -> str:
+    return f"{stamp.tz_convert('UTC'):%Y-%m-%d %H:%M} UTC"
+
+
+def _empty_period(stamps: dict, index) -> tuple[str, str, str]:
+    """The field, problem and fix of a --since/--until period holding no history row."""
+    first, last = index.min(), index.max()
+    span = (f"give dates between {_when(first)} and {_when(last)} (the history's first and "
+            "last rows)")
+    since, until = stamps.get("since"), stamps.get("until")
+    if since is not None and until is not None and since > until:
+        return ("--since/--until", f"no history row lies in the period: --since "
+                f"{_when(since)} is after --until {_when(until)}", "swap them")
+    if since is not None and since > last:
+        return ("--since", f"no history row lies in the period: {_when(since)} is after the "
+                "history's last row", span)
+    if until is not None and until < first:
+        return ("--until", f"no history row lies in the period: {_when(until)} is before the "
+                "history's first row", span)
+    return ("--since/--until", "no history row lies in the period", span)
 
 
 def _row(unit: str, fit: FactorFit | None, n_excluded: int, times, note: str) -> dict:
