@@ -162,6 +162,21 @@ def test_period_outside_the_history_is_refused(short_frame, tmp_path):
         calibrate(DEMO_STATION, *write(tmp_path, *short_frame), since="2030-01-01")
 
 
+@pytest.mark.parametrize(("since", "until", "message"), [
+    (None, "2022-12-31", r"^--until: no history row lies in the period: 2022-12-31 00:00 UTC "
+     r"is before the history's first row; give dates between 2023-01-01 00:00 UTC and "
+     r"2023-01-04 23:00 UTC"),
+    ("2023-01-03", "2023-01-02", r"^--since/--until: .*--since 2023-01-03 00:00 UTC is after "
+     r"--until 2023-01-02 00:00 UTC; swap them$"),
+    ("2023-01-02T00:10", "2023-01-02T00:50", r"^--since/--until: no history row lies in the "
+     r"period; give dates between"),
+])
+def test_empty_period_names_the_option_and_the_historys_span(short_frame, tmp_path, since,
+                                                              until, message):
+    with pytest.raises(InputError, match=message):
+        calibrate(DEMO_STATION, *write(tmp_path, *short_frame), since=since, until=until)
+
+
 def test_steady_bands_are_reported(long_result):
     assert long_result.bands == SteadyBands()
     assert "steady over 3 h" in long_result.summary()
