@@ -218,3 +218,11 @@ def test_row_by_row_mach_correction_is_the_maps_mach_similarity(demo_case):
     # the same monomials evaluated two ways: rounding only
     np.testing.assert_allclose(head, expected_head, rtol=1e-12)
     np.testing.assert_allclose(eta, expected_eta, rtol=1e-12)
+
+
+def test_trend_has_no_excluded_count_it_does_not_know(long_result):
+    # rows left out are counted for the whole period (factors, excluded), not per month;
+    # a column of zeros in the monthly trend would read as "nothing left out"
+    assert len(long_result.trend) >= 4
+    assert "excluded_rows" not in long_result.trend.columns
+    assert long_result.factors["excluded_rows"].gt(0).all()

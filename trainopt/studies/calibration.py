@@ -56,7 +56,8 @@ class CalibrationResult:
         ``measured_over_gas_power`` (median recorded power over ``m (h2 - h1)``, the
         power cross-check).
     trend : pandas.DataFrame
-        The same per unit and calendar month (``month``), for months with enough points.
+        The same per unit and calendar month (``month``), for months with enough points
+        (without ``excluded_rows``: the rows left out are counted for the whole period).
     points : pandas.DataFrame
         The measured points with the as-new map's prediction (``map_head``,
         ``map_efficiency``) and the calibrated one (``fitted_head``, ``fitted_efficiency``).
@@ -236,9 +237,10 @@ def calibrate(case, history, columns=None, *, since=None, until=None,
         months = mine["time"].dt.tz_convert("UTC").dt.strftime("%Y-%m")
         for month, group in mine.groupby(months.to_numpy()):
             if len(group) >= min_points:
-                trend.append({"month": month, **_row(u, fit_factors(cmap, group,
-                                                                    fit_flow=fit_flow),
-                                                      0, group["time"], "")})
+                entry = _row(u, fit_factors(cmap, group, fit_flow=fit_flow), 0,
+                             group["time"], "")
+                entry.pop("excluded_rows")  # counted for the whole period only
+                trend.append({"month": month, **entry})
     factors = pd.DataFrame(rows)
     if not degradations:
         counts = ", ".join(f"{r.unit} {r.points}" for r in factors.itertuples())
