@@ -70,7 +70,8 @@ class CalibrationResult:
     notes : dict of str to list of str
     bands : SteadyBands
     running_hours : pandas.DataFrame
-        ``unit``, ``month``, ``running_hours`` (rows with flow and speed, steady or not).
+        ``unit``, ``month``, ``running_hours`` (rows with flow and speed, steady or not),
+        ``period_hours`` (hours of the month the history covers).
     """
 
     factors: pd.DataFrame
@@ -275,16 +276,22 @@ def _power_check(points: pd.DataFrame) -> float:
 
 
 def _running_hours(history) -> pd.DataFrame:
-    """Hours each unit ran (flow and speed above zero) per calendar month (UTC)."""
+    """Hours each unit ran (flow and speed above zero) per calendar month (UTC).
+
+    ``period_hours`` is the hours of that month the history covers (its rows times its
+    interval), so that a month cut by ``--since``/``--until`` is known to be part of one.
+    """
     frame = history.frame
     month = frame.index.tz_convert("UTC").strftime("%Y-%m")
+    covered = pd.Series(1, index=frame.index).groupby(month).sum() * history.interval / 3600.0
     out = []
     for u in history.units:
         speed = frame.get(f"{u}.speed", pd.Series(np.nan, index=frame.index))
         running = (frame[f"{u}.flow"] > 0) & (speed.fillna(0) > 0)
         counts = running.groupby(month).sum() * history.interval / 3600.0
-        out += [{"unit": u, "month": m, "running_hours": float(h)} for m, h in counts.items()]
-    return pd.DataFrame(out, columns=["unit", "month", "running_hours"])
+        out += [{"unit": u, "month": m, "running_hours": float(h),
+                 "period_hours": float(covered[m])} for m, h in counts.items()]
+    return pd.DataFrame(out, columns=["unit", "month", "running_hours", "period_hours"])
 
 
 def split_groups(case, degradations: dict[str, Degradation]) -> set[str]:
