@@ -7,7 +7,9 @@ The Python API the command line is built on:
 
 - :func:`load_case` reads and validates a station case file;
 - :func:`optimize` finds the least-power (or fuel, or cost) split of a demand;
-- :func:`evaluate` reports a split the user gives.
+- :func:`evaluate` reports a split the user gives;
+- :func:`schedule` plans which units run over a forecast (start costs, run-time rules);
+- :func:`calibrate` fits each unit's wear factors to its steady operating history.
 
 The names are loaded on first use (:func:`__getattr__`), so ``import trainopt`` and the
 command line start without CoolProp, Pyomo, matplotlib or pandas.
@@ -22,6 +24,8 @@ if TYPE_CHECKING:
     from trainopt.case.loading import Case, load_case
     from trainopt.errors import InfeasibleError, InputError, PhysicsError, TrainoptError
     from trainopt.station.split import evaluate, optimize
+    from trainopt.studies.calibration import calibrate
+    from trainopt.studies.schedule import schedule
 
 __all__ = [
     "Case",
@@ -29,9 +33,11 @@ __all__ = [
     "InputError",
     "PhysicsError",
     "TrainoptError",
+    "calibrate",
     "evaluate",
     "load_case",
     "optimize",
+    "schedule",
 ]
 __version__ = "0.1.0"
 
@@ -44,6 +50,8 @@ _HOME = {
     "TrainoptError": "trainopt.errors",
     "evaluate": "trainopt.station.split",
     "optimize": "trainopt.station.split",
+    "calibrate": "trainopt.studies.calibration",
+    "schedule": "trainopt.studies.schedule",
 }
 """Public name -> the module that defines it."""
 

@@ -35,7 +35,7 @@ ALLOWED = {
     # web: the local page and API, over every layer below the command line
     "web": BELOW_STATION | {"station", "studies", "report"},
     "cli": BELOW_STATION | {"station", "studies", "report", "web", "", "__main__"},
-    "": {"case", "station", "errors"},  # trainopt/__init__.py: the public API
+    "": {"case", "station", "studies", "errors"},  # trainopt/__init__.py: the public API
     "__main__": {"cli"},
 }
 for _layer in ALLOWED:  # the caution's wording may be printed by every layer

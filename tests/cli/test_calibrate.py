@@ -100,3 +100,54 @@ def test_bad_options_give_one_line(files, tmp_path, option, value, message):
     assert message in result.output
     assert "Traceback" not in result.output
     assert not (tmp_path / "x").exists()
+
+
+@pytest.mark.parametrize(("options", "message"), [
+    (["--wash-cost", "40000 kW"], "--wash-cost: '40000 kW' is not a cost in USD, the case's "
+     "currency (economics.currency); give e.g. 40000 or '40000 USD'"),
+    (["--overhaul-cost", "lots"], "--overhaul-cost: cannot read 'lots' as a cost; give e.g."),
+    (["--until", "2020-01-01"], "--until: no history row lies in the period: 2020-01-01 00:00 "
+     "UTC is before the history's first row; give dates between 2023-01-01 00:00 UTC and"),
+    (["--since", "2030-01-01"], "--since: no history row lies in the period: 2030-01-01 00:00 "
+     "UTC is after the history's last row; give dates between"),
+    (["--since", "2023-01-05", "--until", "2023-01-03"], "--since/--until: no history row "
+     "lies in the period: --since 2023-01-05 00:00 UTC is after --until 2023-01-03 00:00 "
+     "UTC; swap them"),
+])
+def test_new_user_mistakes_give_one_line_naming_field_and_fix(files, tmp_path, options,
+                                                               message):
+    result = run(DEMO_STATION, files[0], "--columns", files[1], "--out", tmp_path / "x",
+                 *options)
+    assert result.exit_code == 2
+    assert result.output.strip().startswith(f"error: {message}"), result.output
+    assert len(result.output.strip().splitlines()) == 1, result.output
+    assert not (tmp_path / "x").exists()
+
+
+def test_unwritable_out_is_refused_before_the_work(files, tmp_path):
+    blocker = tmp_path / "a_file"
+    blocker.write_text("mine\n")
+    result = run(DEMO_STATION, files[0], "--columns", files[1], "--out", blocker / "sub")
+    assert result.exit_code == 2
+    assert result.output.strip() == (f"error: --out: {blocker} is a file, not a folder; "
+                                     "give a folder path")
+    assert blocker.read_text() == "mine\n"
+    # /proc takes no new folders, even for root (Linux)
+    result = run(DEMO_STATION, files[0], "--columns", files[1], "--out", "/proc/trainopt")
+    assert result.exit_code == 2
+    assert result.output.strip() == ("error: --out: cannot write in /proc; choose a folder "
+                                     "you may write to")
+
+
+def test_columns_file_naming_a_missing_column_is_named(files, tmp_path):
+    mapping = yaml.safe_load(files[1].read_text())
+    mapping["units"]["C"]["discharge_temperature"]["column"] = "C_T2"
+    columns = tmp_path / "columns.yaml"
+    columns.write_text(yaml.safe_dump(mapping))
+    result = run(DEMO_STATION, files[0], "--columns", columns, "--out", tmp_path / "x")
+    assert result.exit_code == 2
+    line = result.output.strip()
+    assert len(line.splitlines()) == 1
+    assert line.startswith(f"error: {columns}: units.C.discharge_temperature.column: no "
+                           "column 'C_T2' in history.csv;")
+    assert not (tmp_path / "x").exists()

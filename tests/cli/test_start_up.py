@@ -42,11 +42,17 @@ def test_start_up_loads_no_heavy_library(code):
 
 
 def test_first_use_loads_the_name_and_keeps_the_public_list():
+    # the names before the layout change, plus schedule and calibrate (issues 12 and 13)
     assert trainopt.__all__ == ["Case", "InfeasibleError", "InputError", "PhysicsError",
-                                "TrainoptError", "evaluate", "load_case", "optimize"]
+                                "TrainoptError", "calibrate", "evaluate", "load_case",
+                                "optimize", "schedule"]
     from trainopt.station.split import optimize
+    from trainopt.studies.calibration import calibrate
+    from trainopt.studies.schedule import schedule
 
     assert trainopt.optimize is optimize
+    assert trainopt.schedule is schedule
+    assert trainopt.calibrate is calibrate
     assert set(trainopt.__all__) <= set(dir(trainopt))
     with pytest.raises(AttributeError, match="no attribute 'nothing'"):
         trainopt.nothing  # noqa: B018

@@ -301,3 +301,19 @@ def test_a_rule_on_an_unknown_margin_says_so(demo_station, monkeypatch):
     split = baseline_splits(demo_station, ["A", "D"], 200.0)["equal_margin"]
     assert not split.feasible
     assert split.reason.startswith("D: its control-line margin is not known")
+
+
+@pytest.mark.parametrize("objective", ["shaft_power", "cost"])
+def test_rule_totals_are_the_full_evaluations_totals(demo_case, objective):
+    # reference: evaluate_split's full result table (CoolProp rows and all) on the same
+    # split; the rules' comparison sums only what it shows, from one vectorised operation
+    # per unit, and must give the very same totals
+    station = Station(demo_case, objective=objective)
+    optimum = trainopt.optimize(demo_case, demand="41 MMSCMD", objective=objective)
+    for rule, entry in optimum.baselines_all_units.items():
+        full = evaluate_split(station, entry["net_mass_flow_kg_s"])
+        assert entry["status"] == "feasible", rule
+        assert entry["total_shaft_power_kW"] == full.total("shaft_power_kW")
+        assert entry["total_driver_input_kW"] == full.total("driver_input_kW")
+        assert entry["total_cost_per_h"] == full.total("cost_per_h")
+        assert entry["total_recycle_kg_s"] == full.total("recycle_kg_s")

@@ -67,3 +67,22 @@ def test_unknown_unit_or_objective_is_refused_by_name(reduced):
         reduced.optimize(offline=["Z"])
     with pytest.raises(InputError, match="objective"):
         reduced.optimize(objective="speed")
+
+
+def test_units_kept_running_equal_a_case_that_marks_them_so(demo_case, reduced):
+    # reference: trainopt.optimize on the case with D's status set to must_run
+    from dataclasses import replace
+
+    from trainopt.machines.train import UnitStatus
+
+    marked = replace(demo_case, trains=tuple(
+        replace(t, status=UnitStatus.MUST_RUN) if t.name == "D" else t
+        for t in demo_case.trains))
+    ours = reduced.optimize("30 MMSCMD", must_run=["D"])
+    reference = trainopt.optimize(marked, demand="30 MMSCMD")
+    _same(ours, reference)
+    assert ours.units.set_index("name").loc["D", "running"]
+    assert ours.units.set_index("name").loc["D", "status"] == "must_run"
+    assert reduced.dispatcher(must_run=["D"]) is not reduced.dispatcher()
+    with pytest.raises(InputError, match="must_run"):
+        reduced.optimize(offline=["D"], must_run=["D"])

@@ -224,7 +224,7 @@ def test_binning_error_is_small(audit, demo_case):
 def test_dask_local_cluster_gives_the_same_answer(history, demo_case, audit):
     distributed = pytest.importorskip("distributed")
     with distributed.LocalCluster(n_workers=1, threads_per_worker=1, processes=False,
-                                  dashboard_address=None) as cluster:
+                                  dashboard_address=":0") as cluster:
         other = audit_history(demo_case, history, binning=Binning(min_rows=1),
                               scheduler=cluster.scheduler_address, progress=False)
     columns = ["shaft_power_kW", "optimum_shaft_power_kW", "recycle_power_kW"]

@@ -162,6 +162,21 @@ def test_period_outside_the_history_is_refused(short_frame, tmp_path):
         calibrate(DEMO_STATION, *write(tmp_path, *short_frame), since="2030-01-01")
 
 
+@pytest.mark.parametrize(("since", "until", "message"), [
+    (None, "2022-12-31", r"^--until: no history row lies in the period: 2022-12-31 00:00 UTC "
+     r"is before the history's first row; give dates between 2023-01-01 00:00 UTC and "
+     r"2023-01-04 23:00 UTC"),
+    ("2023-01-03", "2023-01-02", r"^--since/--until: .*--since 2023-01-03 00:00 UTC is after "
+     r"--until 2023-01-02 00:00 UTC; swap them$"),
+    ("2023-01-02T00:10", "2023-01-02T00:50", r"^--since/--until: no history row lies in the "
+     r"period; give dates between"),
+])
+def test_empty_period_names_the_option_and_the_historys_span(short_frame, tmp_path, since,
+                                                              until, message):
+    with pytest.raises(InputError, match=message):
+        calibrate(DEMO_STATION, *write(tmp_path, *short_frame), since=since, until=until)
+
+
 def test_steady_bands_are_reported(long_result):
     assert long_result.bands == SteadyBands()
     assert "steady over 3 h" in long_result.summary()
@@ -203,3 +218,11 @@ def test_row_by_row_mach_correction_is_the_maps_mach_similarity(demo_case):
     # the same monomials evaluated two ways: rounding only
     np.testing.assert_allclose(head, expected_head, rtol=1e-12)
     np.testing.assert_allclose(eta, expected_eta, rtol=1e-12)
+
+
+def test_trend_has_no_excluded_count_it_does_not_know(long_result):
+    # rows left out are counted for the whole period (factors, excluded), not per month;
+    # a column of zeros in the monthly trend would read as "nothing left out"
+    assert len(long_result.trend) >= 4
+    assert "excluded_rows" not in long_result.trend.columns
+    assert long_result.factors["excluded_rows"].gt(0).all()

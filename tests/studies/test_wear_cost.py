@@ -8,6 +8,8 @@ gas-turbine unit C, electricity 72 USD/MWh for the motor units), and the payback
 the mean monthly saving.
 """
 
+import dataclasses
+
 import numpy as np
 import pytest
 import yaml
@@ -52,6 +54,21 @@ def test_money_co2_and_payback_follow_the_case_prices(result):
     assert_allclose(m.loc["A", "extra_cost"], joules["A"] * 72 / 3.6e9, rtol=1e-12)
     assert_allclose(m.loc["C", "extra_co2_t"], joules["C"] * 56.1e-9 / 1e3, rtol=1e-12)
     p = payback.set_index("unit")
-    assert_allclose(p["wash_payback_months"], 30000.0 / m["extra_cost"], rtol=1e-12)
+    # the history covers 5 days (120 h) of January's 744 h: its cost is that share of a
+    # month's, and the mean monthly cost is scaled up to a whole month
+    monthly_cost = m["extra_cost"] / (120.0 / 744.0)
+    assert_allclose(p["mean_monthly_cost"], monthly_cost, rtol=1e-12)
+    assert_allclose(p["wash_payback_months"], 30000.0 / monthly_cost, rtol=1e-12)
     # driver input exceeds shaft power for every driver (efficiency below 1)
     assert np.all(m["extra_driver_input_MWh"] > m["extra_shaft_MWh"])
+
+
+def test_a_period_cut_mid_month_is_not_taken_for_a_whole_month(result):
+    # two halves of the same 5 days: January 1-3 and 3-5 cost about the same per month as
+    # all 5 days, not half of it (the mean monthly cost is per calendar month covered)
+    _, whole = wear_cost(result)
+    hours = result.running_hours
+    half = dataclasses.replace(result, running_hours=hours.assign(
+        running_hours=hours["running_hours"] / 2, period_hours=hours["period_hours"] / 2))
+    _, part = wear_cost(half)
+    assert_allclose(part["mean_monthly_cost"], whole["mean_monthly_cost"], rtol=1e-12)

@@ -118,6 +118,12 @@ def test_station_stays_reduced_while_conditions_hold():
     # the kept station's re-solved model gives what a fresh optimisation gives
     fresh = trainopt.optimize(trainopt.load_case(DEMO), demand="43 MMSCMD").to_dict()
     assert without_timings(answer.json()) == without_timings(json.loads(json.dumps(fresh)))
+    # a unit's status is asked of the kept station: its curves are reused, not reduced again
+    spare = client.get("/api/optimize", params={"demand": "41 MMSCMD", "offline": "B",
+                                                "must_run": "D"}).json()
+    assert answers.reductions == 1
+    assert {u["name"]: u["status"] for u in spare["units"]}["B"] == "offline"
+    assert {u["name"]: u["running"] for u in spare["units"]}["D"] is True
     low = client.get("/api/optimize", params={"demand": "41 MMSCMD"}).json()
     high = client.get("/api/optimize", params={"demand": "41 MMSCMD",
                                                "discharge_pressure": "70 bar"}).json()

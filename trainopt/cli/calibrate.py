@@ -38,25 +38,26 @@ def calibrate_command(
         "--pressure-band", help="Largest pressure spread in a steady window.")] = "2 %",
     temperature_band: Annotated[str, typer.Option(
         "--temperature-band", help="Largest temperature spread in a steady window.")] = "2 K",
-    wash_cost: Annotated[float | None, typer.Option(
-        "--wash-cost", help="Cost of a wash restoring the as-new map [case currency].")
-    ] = None,
-    overhaul_cost: Annotated[float | None, typer.Option(
-        "--overhaul-cost", help="Cost of an overhaul restoring the as-new map [case "
-        "currency].")] = None,
+    wash_cost: Annotated[str | None, typer.Option(
+        "--wash-cost", help="Cost of a wash restoring the as-new map, in the case's "
+        "currency, e.g. 40000 or '40000 USD'.")] = None,
+    overhaul_cost: Annotated[str | None, typer.Option(
+        "--overhaul-cost", help="Cost of an overhaul restoring the as-new map, in the "
+        "case's currency, e.g. 250000 or '250000 USD'.")] = None,
     force: Annotated[bool, typer.Option("--force", help="Replace existing output files.")
                      ] = False,
 ) -> None:
     """Calibrate each unit's map to its history: degradation factors and a calibrated case."""
-    from trainopt.errors import InputError
+    from trainopt.case.loading import load_case
     from trainopt.physics.units import Kind, parse_quantity
     from trainopt.report.calibration_report import output_folder, write_calibration
     from trainopt.studies.calibration import calibrate
     from trainopt.studies.steady_windows import SteadyBands
 
-    for name, cost in (("--wash-cost", wash_cost), ("--overhaul-cost", overhaul_cost)):
-        if cost is not None and not cost > 0:
-            raise InputError(name, f"{cost:g} is not a positive cost", "give e.g. 40000")
+    case = load_case(case_file, calibrated=False)
+    currency = case.economics.currency
+    wash = _cost(wash_cost, "--wash-cost", currency, "40000")
+    overhaul = _cost(overhaul_cost, "--overhaul-cost", currency, "250000")
     bands = SteadyBands(
         duration=_duration(steady_hours),
         speed=parse_quantity(speed_band, Kind.DIMENSIONLESS, "--speed-band"),
@@ -65,15 +66,35 @@ def calibrate_command(
         temperature=parse_quantity(temperature_band, Kind.TEMPERATURE_DIFFERENCE,
                                    "--temperature-band"))
     output_folder(out, case_file, overwrite=force)  # refuse now, before the work
-    result = calibrate(case_file, history, columns, since=since, until=until, bands=bands,
+    result = calibrate(case, history, columns, since=since, until=until, bands=bands,
                        fit_flow=flow_factor)
-    written = write_calibration(result, out, wash_cost=wash_cost, overhaul_cost=overhaul_cost,
+    written = write_calibration(result, out, wash_cost=wash, overhaul_cost=overhaul,
                                 overwrite=force)
     sys.stdout.write(result.summary() + "\n\n")
     for kind, path in written.items():
         if kind in ("case", "html", "factors"):
             sys.stdout.write(f"{kind}: {path}\n")
     sys.stdout.write(f"tables: {Path(out) / '*.csv'}\n{CAUTION}\n")
+
+
+def _cost(text: str | None, option: str, currency: str, example: str) -> float | None:
+    """A cost given as '40000' or '40000 USD' in the case's currency [currency]."""
+    from trainopt.errors import InputError
+
+    if text is None:
+        return None
+    fix = f"give e.g. {example} or '{example} {currency}' (the case's currency)"
+    value, _, label = text.strip().partition(" ")
+    try:
+        number = float(value.replace(",", ""))
+    except ValueError:
+        raise InputError(option, f"cannot read {text!r} as a cost", fix) from None
+    if label.strip() and label.strip().upper() != currency.upper():
+        raise InputError(option, f"{text!r} is not a cost in {currency}, the case's currency "
+                         "(economics.currency)", fix)
+    if not number > 0:
+        raise InputError(option, f"{number:g} is not a positive cost", fix)
+    return number
 
 
 def _duration(text: str) -> float:

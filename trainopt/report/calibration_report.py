@@ -98,7 +98,9 @@ def _trend_figure(result):
                     label=f"{unit} efficiency")
     ax.set_ylabel("factor [-] (bars: 2 standard errors)")
     ax.set_title("Degradation factors by month", loc="left", fontsize=10)
-    ax.legend(fontsize=7, ncol=4, frameon=False)
+    # below the axes: inside, it hides the points of one unit or another
+    ax.legend(fontsize=7, ncol=4, frameon=False, loc="upper center",
+              bbox_to_anchor=(0.5, -0.12))
     return fig
 
 

@@ -8,7 +8,6 @@ files are replaced only with ``overwrite=True`` (``--force``).
 
 from __future__ import annotations
 
-import json
 from pathlib import Path
 
 from trainopt.report.output_folder import OutputFolder, safe_name, write_csv
@@ -95,16 +94,13 @@ def write_result_files(result, out_dir: str | Path | OutputFolder, *,
     dict of str to Path
         What was written: ``json``, ``csv`` and ``map_<unit>`` (``map_<unit>_<section>``).
     """
-    from trainopt.caution import CAUTION
+    from trainopt.report.result_json import result_json
 
     folder = out_dir if isinstance(out_dir, OutputFolder) else \
         check_result_folder(result.case, out_dir, overwrite=overwrite)
     kinds = {"json": "result.json", "csv": "units.csv"}
     with folder.writing():
-        data = result.to_dict()
-        data.setdefault("caution", CAUTION)
-        folder.path("result.json").write_text(json.dumps(data, indent=2, default=str) + "\n",
-                                              encoding="utf-8")
+        folder.path("result.json").write_text(result_json(result), encoding="utf-8")
         write_csv(result.units, folder.path("units.csv"))
         if result.status != "infeasible":
             kinds.update(_pictures(result, folder))

@@ -29,7 +29,7 @@ from dataclasses import dataclass
 import numpy as np
 from scipy.optimize import brentq
 
-from trainopt.dispatch.reduction import LIMIT_NAMES
+from trainopt.dispatch.reduction import LIMIT_NAMES, operate
 from trainopt.station.reduced import evaluate_split
 
 SAMPLES = 80
@@ -221,7 +221,101 @@ def contrast_in_words(objective: str, objective_saving: float, shaft_saving_kW: 
             f"{' and '.join(words)}: {'; '.join(why)}")
 
 
-def _entry(station, optimum, split: RuleSplit, rule: str, running: list[str]) -> dict:
+class _Totals:
+    """A rule split's station totals on the true model, as a result table would sum them.
+
+    Only what the comparison reads: shaft power, driver input, cost and recycle per
+    running unit, each as the result table's row holds it (``unit_rows``) and summed in
+    the same order, so every figure is the one a full
+    :func:`~trainopt.station.reduced.evaluate_split` gives.
+    """
+
+    status = "evaluated"
+
+    def __init__(self, objective: str, columns: dict[str, np.ndarray]):
+        self.objective = objective
+        self._totals = {k: float(np.nansum(v)) for k, v in columns.items()}
+
+    def total(self, column: str) -> float:
+        """Station total of a column (as :meth:`StationResult.total`)."""
+        return self._totals.get(column, 0.0)
+
+    @property
+    def total_shaft_power(self) -> float:
+        """[W]."""
+        return self._totals["shaft_power_kW"] * 1e3
+
+    def objective_value(self) -> float:
+        """W for power and energy, currency/s for cost."""
+        key = {"shaft_power": "shaft_power_kW", "energy_input": "driver_input_kW",
+               "cost": "cost_per_h"}[self.objective]
+        scale = 1e3 if key.endswith("kW") else 1 / 3600.0
+        return self._totals[key] * scale
+
+
+class _TrueModel:
+    """The rules' splits on the true model: one vectorised operation per unit.
+
+    Every through-flow any rule asks of a single-section unit is operated in one call of
+    :func:`~trainopt.dispatch.reduction.operate` (a flow two rules share once); the
+    exact compression of each row (CoolProp), the margins and the result table are not
+    computed, since the comparison shows only totals. A split with a series train, or one
+    a unit cannot carry, is evaluated in full by
+    :func:`~trainopt.station.reduced.evaluate_split`.
+    """
+
+    def __init__(self, station, splits):
+        self.station = station
+        self._figures: dict[tuple[str, float], tuple[float, float]] = {}
+        wanted: dict[str, set[float]] = {}
+        for split in splits:
+            through = self._through(split.flows) if split.feasible else None
+            for name, m in (through or {}).items():
+                wanted.setdefault(name, set()).add(m)
+        case = station.case
+        for name, flows in wanted.items():
+            train = case.train(name)
+            m = np.array(sorted(flows))
+            op = operate(train, station.duty(train), m, case.ambient_temperature,
+                         station.throttle)
+            for i, flow in enumerate(m.tolist()):
+                self._figures[name, flow] = (float(op.shaft_power[i]),
+                                             float(op.energy_input[i]))
+
+    def _through(self, net: dict) -> dict | None:
+        """Through-flows [kg/s] as evaluate_split sets them; None to evaluate in full."""
+        through = {}
+        for name, m in net.items():
+            curve = self.station.curves[name]
+            if (not curve.feasible or m > curve.max_flow * (1 + 1e-9)
+                    or not self.station.case.train(name).is_single_section):
+                return None
+            through[name] = max(m, curve.min_flow)
+        return through
+
+    def evaluate(self, net: dict):
+        """The split's totals (:class:`_Totals`), or the full result where needed."""
+        through = self._through(net)
+        if through is None:
+            return evaluate_split(self.station, net)
+        station, case = self.station, self.station.case
+        columns = {k: np.full(len(case.trains), np.nan) for k in
+                   ("shaft_power_kW", "driver_input_kW", "cost_per_h", "recycle_kg_s")}
+        for i, train in enumerate(case.trains):
+            m = through.get(train.name, 0.0)
+            if m <= 0.0:
+                continue
+            shaft, energy = self._figures[train.name, m]
+            price, _ = station.price(train)
+            columns["shaft_power_kW"][i] = shaft / 1e3
+            columns["driver_input_kW"][i] = energy / 1e3
+            columns["cost_per_h"][i] = energy * price * 3600.0
+            columns["recycle_kg_s"][i] = m - net[train.name]
+        return _Totals(station.objective, columns)
+
+
+def _entry(station, optimum: dict, split: RuleSplit, rule: str, running: list[str],
+           true_model: _TrueModel) -> dict:
     currency = station.case.economics.currency
     entry = {"status": "feasible" if split.feasible else "infeasible",
              "reason": split.reason, "running_units": list(running),
@@ -229,15 +323,15 @@ def _entry(station, optimum, split: RuleSplit, rule: str, running: list[str]) ->
              "objective_unit": objective_unit(station.objective, currency)}
     if not split.feasible:
         return entry
-    res = evaluate_split(station, split.flows)
+    res = true_model.evaluate(split.flows)
     if res.status == "infeasible":
         entry.update(status="infeasible", reason=res.reason)
         return entry
-    power, best_power = res.total_shaft_power, optimum.total_shaft_power
-    value, best_value = _objective_display(res), _objective_display(optimum)
+    power, best_power = res.total_shaft_power, optimum["shaft"]
+    value, best_value = _objective_display(res), optimum["value"]
     shaft_saving = (power - best_power) / 1e3
-    input_saving = res.total("driver_input_kW") - optimum.total("driver_input_kW")
-    cost_saving = res.total("cost_per_h") - optimum.total("cost_per_h")
+    input_saving = res.total("driver_input_kW") - optimum["input"]
+    cost_saving = res.total("cost_per_h") - optimum["cost"]
     entry.update({
         "total_shaft_power_kW": power / 1e3,
         "total_driver_input_kW": res.total("driver_input_kW"),
@@ -253,6 +347,27 @@ def _entry(station, optimum, split: RuleSplit, rule: str, running: list[str]) ->
                                   rule.replace("_", " ")),
     })
     return entry
+
+
+def running_units(optimum) -> list[str]:
+    """The units running in a result, each once, in table order."""
+    table = optimum.units
+    if "running" not in table or table.empty:
+        return []
+    mask = table["running"].to_numpy(dtype=bool)
+    return list(dict.fromkeys(table["name"].to_numpy()[mask].tolist()))
+
+
+def _compare(station, optimum, demand: float, unit_sets: list[list[str]]) -> list[dict]:
+    """Each rule on each set of units, the true model run once for all of them."""
+    splits = [baseline_splits(station, units, demand) if units else {}
+              for units in unit_sets]
+    true_model = _TrueModel(station, [s for rules in splits for s in rules.values()])
+    best = {"shaft": optimum.total_shaft_power, "value": _objective_display(optimum),
+            "input": optimum.total("driver_input_kW"), "cost": optimum.total("cost_per_h")}
+    return [{rule: _entry(station, best, split, rule, units, true_model)
+             for rule, split in rules.items()}
+            for units, rules in zip(unit_sets, splits, strict=True)]
 
 
 def compare_baselines(station, optimum, demand: float, units: list[str] | None = None) -> dict:
@@ -275,12 +390,10 @@ def compare_baselines(station, optimum, demand: float, units: list[str] | None =
         ``docs/results.md``).
     """
     if units is None:
-        units = list(dict.fromkeys(r["name"] for r in optimum.units.to_dict("records")
-                                   if r.get("running")))
+        units = running_units(optimum)
     if not units:
         return {}
-    return {rule: _entry(station, optimum, split, rule, units)
-            for rule, split in baseline_splits(station, units, demand).items()}
+    return _compare(station, optimum, demand, [units])[0]
 
 
 def available_units(station) -> list[str]:
@@ -296,8 +409,25 @@ def compare_all_units(station, optimum, demand: float, running_set: dict | None 
     optimum already runs every available unit.
     """
     units = available_units(station)
-    running = list(dict.fromkeys(r["name"] for r in optimum.units.to_dict("records")
-                                 if r.get("running")))
-    if running_set is not None and set(running) == set(units):
+    if running_set is not None and set(running_units(optimum)) == set(units):
         return running_set
     return compare_baselines(station, optimum, demand, units)
+
+
+def compare_both(station, optimum, demand: float) -> tuple[dict, dict]:
+    """:func:`compare_baselines` and :func:`compare_all_units` in one pass.
+
+    The true model is operated once per unit for every split of both comparisons; when
+    the optimum runs every available unit the two are the same comparison.
+
+    Returns
+    -------
+    tuple of dict
+        On the optimum's running set, and on every available unit.
+    """
+    running, units = running_units(optimum), available_units(station)
+    if set(running) == set(units):
+        same = compare_baselines(station, optimum, demand, running)
+        return same, same
+    on_running, on_all = _compare(station, optimum, demand, [running, units])
+    return on_running, on_all

@@ -10,6 +10,11 @@ costs one re-solve, the truth check and the refinement, not a reduction and a mo
 - A new objective reuses the single-section curves: the objective at a breakpoint is the
   shaft power, the driver's energy input or its cost, all kept on the curve. A series
   train's interstage pressure is chosen for the objective, so its curve is reduced again.
+- Units kept running (``must_run``) change the model, not the curves: each set of them
+  has its own model, as each offline set has.
+- The speed and margin profiles the load-sharing rules sample along each unit's curve
+  depend only on the conditions, so each kept station computes them once
+  (:class:`KeptStation`).
 
 :func:`answer` is the one path from a reduced station and a demand to a
 :class:`~trainopt.station.result.StationResult`; :func:`trainopt.optimize` takes it too,
@@ -25,11 +30,12 @@ import numpy as np
 from trainopt.case.loading import Case
 from trainopt.dispatch.solve import Dispatcher
 from trainopt.errors import InputError
-from trainopt.station.baselines import compare_all_units, compare_baselines
+from trainopt.machines.train import UnitStatus
+from trainopt.station.baselines import compare_both
 from trainopt.station.reduced import Station, chosen_objective, requested_demand, station_result
 from trainopt.station.result import StationResult
 
-__all__ = ["ReducedStation", "answer", "objective_error_bound"]
+__all__ = ["KeptStation", "ReducedStation", "answer", "objective_error_bound"]
 
 
 def infeasible_units_text(station: Station) -> str:
@@ -101,10 +107,31 @@ def answer(station: Station, m_demand: float, dispatcher: Dispatcher | None = No
     if security is not None:
         result.solver["trip_reserve"] = security
     if baselines:
-        result.baselines = compare_baselines(station, result, m_demand)
-        result.baselines_all_units = compare_all_units(station, result, m_demand,
-                                                       result.baselines)
+        result.baselines, result.baselines_all_units = compare_both(station, result,
+                                                                    m_demand)
     return result
+
+
+class KeptStation(Station):
+    """A :class:`~trainopt.station.reduced.Station` kept for many demands.
+
+    It remembers the speed and margin profiles the load-sharing rules ask for
+    (:meth:`Station.profile`), which depend on the conditions only, not on the demand.
+    """
+
+    def __init__(self, *args, **kwargs):
+        super().__init__(*args, **kwargs)
+        self._profiles: dict[tuple, tuple[np.ndarray, np.ndarray]] = {}
+
+    def profile(self, name: str, through_flow) -> tuple[np.ndarray, np.ndarray]:
+        """:meth:`Station.profile`, remembered per unit and flows (copies returned)."""
+        m = np.asarray(through_flow, float)
+        key = (name, m.tobytes())
+        if key not in self._profiles:
+            self._profiles[key] = tuple(np.asarray(v, float)
+                                        for v in super().profile(name, m))
+        speed, margin = self._profiles[key]
+        return speed.copy(), margin.copy()
 
 
 def objective_error_bound(station: Station, name: str) -> float:
@@ -166,17 +193,34 @@ class ReducedStation:
         self._stations: dict[tuple, Station] = {}
         self._dispatchers: dict[tuple, Dispatcher | None] = {}
 
-    def station(self, offline: Iterable[str] = (), objective: str | None = None) -> Station:
-        """The reduced :class:`Station` for an offline set and objective (reduced once)."""
+    def _key(self, offline: Iterable[str], must_run: Iterable[str],
+             objective: str | None) -> tuple:
+        """The kept station's key; refuses unknown names and a unit offline and kept running."""
         objective = chosen_objective(self.case, objective or self.objective)
-        offline = frozenset(offline)
-        for name in offline:
+        offline, must_run = frozenset(offline), frozenset(must_run)
+        for name in offline | must_run:
             self.case.train(name)  # refuses an unknown name
-        key = (offline, objective)
+        clash = sorted(n for n in must_run if n in offline
+                       or self.case.train(n).status is UnitStatus.OFFLINE)
+        if clash:
+            raise InputError("must_run", f"unit '{clash[0]}' is also offline",
+                             "give each unit one status")
+        return offline, must_run, objective
+
+    def station(self, offline: Iterable[str] = (), objective: str | None = None,
+                must_run: Iterable[str] = ()) -> Station:
+        """The reduced :class:`Station` for an offline set, units kept running and an objective.
+
+        The sets come on top of the case's own statuses; each unit is reduced once.
+        """
+        key = self._key(offline, must_run, objective)
         if key not in self._stations:
+            offline, must_run, objective = key
             series = self._series.setdefault(objective, {})
-            station = Station(self.case, sorted(offline), objective,
-                              reuse={**self._single, **series}, duties=self._duties)
+            station = KeptStation(self.case, sorted(offline), objective,
+                                  reuse={**self._single, **series}, duties=self._duties)
+            for name in must_run:
+                station.status[name] = UnitStatus.MUST_RUN
             for name, curve in station.curves.items():
                 if self.case.train(name).is_single_section:
                     self._single[name] = curve
@@ -185,18 +229,19 @@ class ReducedStation:
             self._stations[key] = station
         return self._stations[key]
 
-    def dispatcher(self, offline: Iterable[str] = (), objective: str | None = None
-                   ) -> Dispatcher | None:
-        """The persistent dispatch model of an offline set and objective; None if no unit."""
-        station = self.station(offline, objective)
-        key = (frozenset(offline), station.objective)
+    def dispatcher(self, offline: Iterable[str] = (), objective: str | None = None,
+                   must_run: Iterable[str] = ()) -> Dispatcher | None:
+        """The persistent dispatch model of a station (:meth:`station`); None if no unit."""
+        station = self.station(offline, objective, must_run)
+        key = self._key(offline, must_run, objective)
         if key not in self._dispatchers:
             curves = station.unit_curves()
             self._dispatchers[key] = Dispatcher(curves) if curves else None
         return self._dispatchers[key]
 
     def optimize(self, demand=None, offline: Iterable[str] = (), objective: str | None = None,
-                 baselines: bool = True, trip_reserve=None) -> StationResult:
+                 baselines: bool = True, trip_reserve=None,
+                 must_run: Iterable[str] = ()) -> StationResult:
         """Least-objective split of a demand: the same answer as :func:`trainopt.optimize`.
 
         Parameters
@@ -212,15 +257,17 @@ class ReducedStation:
             Also evaluate the load-sharing baselines.
         trip_reserve : float or str, optional
             As for :func:`trainopt.optimize` (its secure dispatch is solved afresh).
+        must_run : iterable of str, optional
+            Units to keep running on top of the case's own status.
 
         Returns
         -------
         StationResult
         """
-        offline = list(offline)
-        station = self.station(offline, objective)
+        offline, must_run = list(offline), list(must_run)
+        station = self.station(offline, objective, must_run)
         m_demand = requested_demand(self.case, demand)
-        dispatcher = self.dispatcher(offline, station.objective)
+        dispatcher = self.dispatcher(offline, station.objective, must_run)
         if dispatcher is None:
             reason = "no unit is available" + infeasible_units_text(station)
             return StationResult.infeasible(self.case, m_demand, reason, station.objective)

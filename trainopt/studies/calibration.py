@@ -56,7 +56,8 @@ class CalibrationResult:
         ``measured_over_gas_power`` (median recorded power over ``m (h2 - h1)``, the
         power cross-check).
     trend : pandas.DataFrame
-        The same per unit and calendar month (``month``), for months with enough points.
+        The same per unit and calendar month (``month``), for months with enough points
+        (without ``excluded_rows``: the rows left out are counted for the whole period).
     points : pandas.DataFrame
         The measured points with the as-new map's prediction (``map_head``,
         ``map_efficiency``) and the calibrated one (``fitted_head``, ``fitted_efficiency``).
@@ -69,7 +70,8 @@ class CalibrationResult:
     notes : dict of str to list of str
     bands : SteadyBands
     running_hours : pandas.DataFrame
-        ``unit``, ``month``, ``running_hours`` (rows with flow and speed, steady or not).
+        ``unit``, ``month``, ``running_hours`` (rows with flow and speed, steady or not),
+        ``period_hours`` (hours of the month the history covers).
     """
 
     factors: pd.DataFrame
@@ -115,24 +117,49 @@ def _history(history, columns, case, since, until):
         history = read_history(history, columns, case)
     frame = history.frame
     keep = np.ones(len(frame), bool)
+    stamps = {}
     for text, side in ((since, "since"), (until, "until")):
         if text is None:
             continue
         try:
             stamp = pd.Timestamp(text)
         except (ValueError, TypeError):
+            stamp = None
+        if stamp is None or stamp is pd.NaT:
             raise InputError(f"--{side}", f"cannot read the date {text!r}",
-                             "write e.g. 2023-01-01") from None
+                             "write e.g. 2023-01-01")
         if stamp.tz is None:
             stamp = stamp.tz_localize(frame.index.tz)
+        stamps[side] = stamp
         keep &= (frame.index >= stamp) if side == "since" else (frame.index <= stamp)
     outside = int((~keep).sum())
     if outside:
         history = dataclasses.replace(history, frame=frame[keep])
     if len(history.frame) == 0:
-        raise InputError("--since/--until", "no history row lies in the period",
-                         f"the history runs from {frame.index.min()} to {frame.index.max()}")
+        raise InputError(*_empty_period(stamps, frame.index))
     return history, outside
+
+
+def _when(stamp) -> str:
+    return f"{stamp.tz_convert('UTC'):%Y-%m-%d %H:%M} UTC"
+
+
+def _empty_period(stamps: dict, index) -> tuple[str, str, str]:
+    """The field, problem and fix of a --since/--until period holding no history row."""
+    first, last = index.min(), index.max()
+    span = (f"give dates between {_when(first)} and {_when(last)} (the history's first and "
+            "last rows)")
+    since, until = stamps.get("since"), stamps.get("until")
+    if since is not None and until is not None and since > until:
+        return ("--since/--until", f"no history row lies in the period: --since "
+                f"{_when(since)} is after --until {_when(until)}", "swap them")
+    if since is not None and since > last:
+        return ("--since", f"no history row lies in the period: {_when(since)} is after the "
+                "history's last row", span)
+    if until is not None and until < first:
+        return ("--until", f"no history row lies in the period: {_when(until)} is before the "
+                "history's first row", span)
+    return ("--since/--until", "no history row lies in the period", span)
 
 
 def _row(unit: str, fit: FactorFit | None, n_excluded: int, times, note: str) -> dict:
@@ -211,9 +238,10 @@ def calibrate(case, history, columns=None, *, since=None, until=None,
         months = mine["time"].dt.tz_convert("UTC").dt.strftime("%Y-%m")
         for month, group in mine.groupby(months.to_numpy()):
             if len(group) >= min_points:
-                trend.append({"month": month, **_row(u, fit_factors(cmap, group,
-                                                                    fit_flow=fit_flow),
-                                                      0, group["time"], "")})
+                entry = _row(u, fit_factors(cmap, group, fit_flow=fit_flow), 0,
+                             group["time"], "")
+                entry.pop("excluded_rows")  # counted for the whole period only
+                trend.append({"month": month, **entry})
     factors = pd.DataFrame(rows)
     if not degradations:
         counts = ", ".join(f"{r.unit} {r.points}" for r in factors.itertuples())
@@ -248,16 +276,22 @@ def _power_check(points: pd.DataFrame) -> float:
 
 
 def _running_hours(history) -> pd.DataFrame:
-    """Hours each unit ran (flow and speed above zero) per calendar month (UTC)."""
+    """Hours each unit ran (flow and speed above zero) per calendar month (UTC).
+
+    ``period_hours`` is the hours of that month the history covers (its rows times its
+    interval), so that a month cut by ``--since``/``--until`` is known to be part of one.
+    """
     frame = history.frame
     month = frame.index.tz_convert("UTC").strftime("%Y-%m")
+    covered = pd.Series(1, index=frame.index).groupby(month).sum() * history.interval / 3600.0
     out = []
     for u in history.units:
         speed = frame.get(f"{u}.speed", pd.Series(np.nan, index=frame.index))
         running = (frame[f"{u}.flow"] > 0) & (speed.fillna(0) > 0)
         counts = running.groupby(month).sum() * history.interval / 3600.0
-        out += [{"unit": u, "month": m, "running_hours": float(h)} for m, h in counts.items()]
-    return pd.DataFrame(out, columns=["unit", "month", "running_hours"])
+        out += [{"unit": u, "month": m, "running_hours": float(h),
+                 "period_hours": float(covered[m])} for m, h in counts.items()]
+    return pd.DataFrame(out, columns=["unit", "month", "running_hours", "period_hours"])
 
 
 def split_groups(case, degradations: dict[str, Degradation]) -> set[str]:

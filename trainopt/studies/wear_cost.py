@@ -15,8 +15,10 @@ that month (all rows with flow and speed, steady or not; a month without steady 
 the unit's mean over the period). Money and CO2 follow the case's prices and factors for the
 driver's energy (fuel for turbines, electricity for motors).
 
-A wash or overhaul that restores the as-new map pays for itself after ``cost / monthly
-saving`` months (simple payback, no discounting, and no credit for capacity regained).
+The mean monthly cost is the period's cost over the months it covers, a month cut by
+``--since``/``--until`` counting as its covered share of the calendar month. A wash or
+overhaul that restores the as-new map pays for itself after ``cost / monthly saving`` months
+(simple payback, no discounting, and no credit for capacity regained).
 """
 
 from __future__ import annotations
@@ -47,6 +49,16 @@ def _excess(train, as_new_map, points: pd.DataFrame, ambient: float) -> pd.DataF
                          "shaft_kW": (worn - new) / 1e3,
                          "input_kW": (np.asarray(input_worn) - np.asarray(input_new)) / 1e3,
                          "as_new_speed_found": np.isfinite(n_new)})
+
+
+def _months_covered(hours: pd.DataFrame) -> dict[str, float]:
+    """Calendar months the history covers, per unit [-] (a part-month as its share)."""
+    if "period_hours" not in hours:
+        return {}
+    in_month = pd.PeriodIndex(hours["month"], freq="M").days_in_month.to_numpy() * 24.0
+    share = hours["period_hours"].to_numpy(float) / in_month
+    return {u: float(s) for u, s in pd.Series(share).groupby(hours["unit"].to_numpy()).sum()
+            .items()}
 
 
 def wear_cost(result, *, wash_cost: float | None = None,
@@ -103,8 +115,9 @@ def wear_cost(result, *, wash_cost: float | None = None,
                                           "extra_shaft_kW", "extra_shaft_MWh",
                                           "extra_driver_input_MWh", "extra_cost",
                                           "extra_co2_t"])
+    months = _months_covered(hours)
     for u, group in monthly.groupby("unit", sort=False):
-        mean_cost = float(group["extra_cost"].mean())
+        mean_cost = float(group["extra_cost"].sum() / months.get(u, len(group)))
         row = {"unit": u, "currency": econ.currency, "mean_monthly_cost": mean_cost}
         for name, cost in (("wash", wash_cost), ("overhaul", overhaul_cost)):
             if cost is not None:

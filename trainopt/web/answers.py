@@ -1,21 +1,17 @@
 """Answers for the web page and API, from stations kept reduced between requests.
 
 Reducing the station (one least-power curve per unit) is the slow part of an answer; it
-depends only on the conditions and statuses (:class:`~trainopt.web.inputs.Conditions`),
-not on the demand. :class:`Answers` keeps the last few reduced stations, keyed by
-conditions, so a new demand costs one dispatch solve and its true-model check. A change of
-conditions reduces once.
+depends only on the header pressures and temperatures, not on the demand, the unit
+statuses or the objective. :class:`Answers` keeps a
+:class:`~trainopt.station.reduced_station.ReducedStation` for each of the last few sets
+of conditions; it reduces each unit once and keeps a persistent HiGHS model per offline
+set, set of units kept running and objective. A new demand costs one re-solve, the
+refinement and the true-model check; a change of statuses or objective reuses the
+curves; a change of conditions reduces once.
 
-A kept station also keeps what does not depend on the demand: its dispatch model, built
-once and re-solved by the persistent HiGHS interface for each demand
-(:class:`~trainopt.dispatch.solve.Dispatcher`), and the speed and margin profiles along
-each unit's curve that the load-sharing baselines sample.
-
-The optimum on a kept station follows :func:`trainopt.station.split.optimize` step by step
-(dispatch, refine on the sampled true model, true-model rows, baselines); the API tests
-check that both give the same JSON. Where the station API gains a reusable reduced station
-of its own, :meth:`Answers.station` and :meth:`Answers.optimize` are the two places to
-switch to it.
+The answer is :meth:`ReducedStation.optimize`, the path :func:`trainopt.optimize` takes
+too (:func:`trainopt.station.reduced_station.answer`), so the API gives what the command
+line prints.
 """
 
 from __future__ import annotations
@@ -23,28 +19,36 @@ from __future__ import annotations
 import threading
 from collections import OrderedDict
 from collections.abc import Mapping
-
-import numpy as np
+from dataclasses import replace
 
 from trainopt.case.loading import Case
-from trainopt.dispatch.solve import Dispatcher
-from trainopt.station.baselines import compare_all_units, compare_baselines
-from trainopt.station.reduced import Station, requested_demand, station_result
+from trainopt.machines.train import UnitStatus
+from trainopt.station.reduced import Station, requested_demand
+from trainopt.station.reduced_station import ReducedStation
 from trainopt.station.result import StationResult
-from trainopt.station.split import (
-    _infeasible_units_text,
-    evaluate,
-    objective_error_bound,
-    optimize,
-)
+from trainopt.station.split import evaluate, optimize
 from trainopt.web.inputs import Conditions, case_at
 
 STATIONS_KEPT = 6
-"""Reduced stations kept (each a few hundred kB of curves) [-]."""
+"""Sets of conditions kept reduced (each a few hundred kB of curves per unit) [-]."""
 
 RESULTS_KEPT = 32
 """Optimum results kept, and as many evaluated splits, for the page's map pictures and
 repeated questions [-]."""
+
+
+def _physical(conditions: Conditions) -> Conditions:
+    """The conditions a reduction depends on: every unit free to start, no objective.
+
+    Statuses and the objective are asked of the kept station for each request.
+    """
+    return replace(conditions, statuses=tuple((n, UnitStatus.AVAILABLE.value)
+                                              for n, _ in conditions.statuses),
+                   objective="")
+
+
+def _with_status(conditions: Conditions, status: UnitStatus) -> list[str]:
+    return [n for n, s in conditions.statuses if s == status.value]
 
 
 class Answers:
@@ -63,25 +67,33 @@ class Answers:
 
     def __init__(self, case: Case):
         self.case = case
-        self._stations: OrderedDict[Conditions, Station] = OrderedDict()
+        self._stations: OrderedDict[Conditions, ReducedStation] = OrderedDict()
         self._results: OrderedDict[tuple, StationResult] = OrderedDict()
         self._evaluated: OrderedDict[tuple, StationResult] = OrderedDict()
         self._lock = threading.RLock()
         self.reductions = 0
-        """How many times a station was reduced (a cache miss) [-]."""
+        """How many times a station was reduced at new conditions (a cache miss) [-]."""
 
-    def station(self, conditions: Conditions) -> Station:
-        """The station reduced at these conditions: kept, or reduced now and kept."""
+    def reduced(self, conditions: Conditions) -> ReducedStation:
+        """The station kept at these conditions' pressures and temperatures, or a new one."""
+        key = _physical(conditions)
         with self._lock:
-            if conditions in self._stations:
-                self._stations.move_to_end(conditions)
-                return self._stations[conditions]
-            station = KeptStation(case_at(self.case, conditions), conditions.objective)
+            if key in self._stations:
+                self._stations.move_to_end(key)
+                return self._stations[key]
+            kept = ReducedStation(case_at(self.case, key), conditions.objective)
             self.reductions += 1
-            self._stations[conditions] = station
+            self._stations[key] = kept
             while len(self._stations) > STATIONS_KEPT:
                 self._stations.popitem(last=False)
-            return station
+            return kept
+
+    def station(self, conditions: Conditions) -> Station:
+        """The station reduced at these conditions, statuses and objective."""
+        with self._lock:
+            return self.reduced(conditions).station(
+                _with_status(conditions, UnitStatus.OFFLINE), conditions.objective,
+                _with_status(conditions, UnitStatus.MUST_RUN))
 
     def optimize(self, conditions: Conditions, demand=None) -> StationResult:
         """The least-objective split, as :func:`trainopt.optimize` gives it.
@@ -102,7 +114,10 @@ class Answers:
             if case.interstage_header is not None:
                 result = optimize(case, m_demand, (), conditions.objective)
             else:
-                result = _optimize_on(self.station(conditions), m_demand)
+                result = self.reduced(conditions).optimize(
+                    m_demand, _with_status(conditions, UnitStatus.OFFLINE),
+                    conditions.objective,
+                    must_run=_with_status(conditions, UnitStatus.MUST_RUN))
             self._results[key] = result
             while len(self._results) > RESULTS_KEPT:
                 self._results.popitem(last=False)
@@ -124,65 +139,3 @@ class Answers:
             while len(self._evaluated) > RESULTS_KEPT:
                 self._evaluated.popitem(last=False)
             return result
-
-
-class KeptStation(Station):
-    """A :class:`~trainopt.station.reduced.Station` kept between requests.
-
-    It keeps its dispatch model (built at the first demand) and the profiles the baselines
-    ask for, which depend only on the conditions. Both return what a fresh station gives.
-    """
-
-    def __init__(self, case: Case, objective: str | None = None):
-        super().__init__(case, (), objective)
-        self._dispatcher: Dispatcher | None = None
-        self._profiles: dict[tuple, tuple[np.ndarray, np.ndarray]] = {}
-
-    def dispatcher(self) -> Dispatcher:
-        """The dispatch model of the feasible units' curves, built once."""
-        if self._dispatcher is None:
-            self._dispatcher = Dispatcher(self.unit_curves())
-        return self._dispatcher
-
-    def profile(self, name: str, through_flow) -> tuple[np.ndarray, np.ndarray]:
-        """:meth:`Station.profile`, remembered per unit and flows (copies returned)."""
-        m = np.asarray(through_flow, float)
-        key = (name, m.tobytes())
-        if key not in self._profiles:
-            self._profiles[key] = super().profile(name, m)
-        speed, margin = self._profiles[key]
-        return speed.copy(), margin.copy()
-
-
-def _optimize_on(station: KeptStation, m_demand: float) -> StationResult:
-    """:func:`trainopt.station.split.optimize` on a station already reduced [kg/s]."""
-    case = station.case
-    curves = station.unit_curves()
-    if not curves:
-        reason = "no unit is available" + _infeasible_units_text(station)
-        return StationResult.infeasible(case, m_demand, reason, station.objective)
-    dispatch = station.dispatcher().solve(m_demand)
-    if dispatch.status == "infeasible":
-        return StationResult.infeasible(case, m_demand, dispatch.reason
-                                        + _infeasible_units_text(station), station.objective)
-    through = {n: dispatch.through_flow.get(n, 0.0) for n in station.curves}
-    recycle = {n: dispatch.recycle.get(n, 0.0) for n in station.curves}
-    refined = station.refine({n: through[n] for n in through if recycle[n] <= 0.0})
-    through.update(refined)
-    result = station_result(station, through, recycle, m_demand)
-    result.solver = {"piecewise_objective": dispatch.objective,
-                     "formulation": dispatch.formulation,
-                     "build_seconds": dispatch.build_seconds,
-                     "solve_seconds": dispatch.solve_seconds,
-                     "mip_gap": dispatch.mip_gap_achieved,
-                     "breakpoint_error_W": {n: c.error_bound for n, c in station.curves.items()},
-                     "objective_error_bound": {n: objective_error_bound(station, n)
-                                               for n, c in station.curves.items()
-                                               if c.feasible},
-                     "objective_unit": ("W" if station.objective != "cost" else
-                                        f"{case.economics.currency}/s"),
-                     "convex": {n: c.convex for n, c in station.curves.items()}}
-    result.baselines = compare_baselines(station, result, m_demand)
-    result.baselines_all_units = compare_all_units(station, result, m_demand, result.baselines)
-    return result
-
