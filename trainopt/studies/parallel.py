@@ -9,7 +9,8 @@ audit, one point of an envelope sweep). :func:`run_tasks` runs them:
   process imports trainopt, CoolProp, Pyomo and SciPy again (about 4 s of CPU each,
   :data:`WORKER_START_SECONDS`), so tasks run here first, one after another, while the
   work left is too small to repay that start: a pool is started only once the last task's
-  time times the tasks left, shared over the workers, saves more than a worker's start;
+  time (from the second task on) times the tasks left, shared over the workers, saves
+  more than a worker's start;
 - on an existing Dask cluster when a scheduler address (``tcp://host:8786``) or a
   ``distributed.Client`` is given. Dask workers need trainopt installed; a task holds its
   own case, so nothing has to be copied to them beforehand.
@@ -69,7 +70,8 @@ def run_tasks(func: Callable, tasks: Sequence, *, workers: int | None = None,
     start_cost : float, optional
         Time [s] a local worker takes to start (default :data:`WORKER_START_SECONDS`).
         Tasks run in this process while ``t_last * left * (1 - 1/workers) <= start_cost``
-        (``t_last`` [s] the last task's time, ``left`` the tasks left); the rest go to a
+        (``t_last`` [s] the last task's time, ``left`` the tasks left; judged from the
+        second task on, since the first also pays first-call costs); the rest go to a
         pool once it is exceeded. 0 starts the pool at once. Each task runs the same
         function either way, so the answers do not depend on where it ran.
 
@@ -93,15 +95,17 @@ def run_tasks(func: Callable, tasks: Sequence, *, workers: int | None = None,
         if workers < 1:
             raise InputError("workers", f"{workers} is not a number of processes",
                              "give 1 or more")
-        left = list(order)
+        left, done = list(order), 0
         while left and (workers == 1 or len(left) <= 1 or start_cost > 0):
             i = left.pop(0)
             start = time.perf_counter()
             results[i] = func(tasks[i])
             bar.update(weights[i])
+            done += 1
             pooled = min(workers, len(left))
-            if pooled > 1 and ((time.perf_counter() - start) * len(left) * (1 - 1 / pooled)
-                               > start_cost):
+            # the first task also pays this process's first-call costs: judge on the second
+            if done >= 2 and pooled > 1 and ((time.perf_counter() - start) * len(left)
+                                             * (1 - 1 / pooled) > start_cost):
                 break
         if not left:
             return results
