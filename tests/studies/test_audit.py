@@ -239,12 +239,35 @@ def test_run_tasks_on_two_processes():
 
     # results come back in task order whatever order they finish in (largest first)
     assert run_tasks(math.factorial, [3, 10, 5], workers=2, weights=[1, 3, 2],
-                     progress=False) == [6, 3628800, 120]
+                     progress=False, start_cost=0) == [6, 3628800, 120]
     assert run_tasks(math.factorial, [4], workers=1, progress=False) == [24]
 
 
+def test_run_tasks_keeps_short_work_in_this_process():
+    import os
+
+    from trainopt.studies.parallel import run_tasks
+
+    # tasks far shorter than a worker's start run here, one after another; a task whose
+    # time times the tasks left passes the start cost sends the rest to a pool
+    assert set(run_tasks(_process_id, range(4), workers=2, progress=False)) == {os.getpid()}
+    # (the first task pays first-call costs: the choice is made after the second)
+    pids = run_tasks(_process_id, range(4), workers=2, progress=False, start_cost=1e-9)
+    assert pids[:2] == [os.getpid()] * 2
+    assert os.getpid() not in pids[2:]
+
+
+def _process_id(_task) -> int:
+    import os
+
+    return os.getpid()
+
+
 @pytest.mark.slow  # each spawned process imports CoolProp and Pyomo: 20-30 s on 2 cores
-def test_two_local_processes_give_the_same_answer(history, demo_case, audit):
+def test_two_local_processes_give_the_same_answer(history, demo_case, audit, monkeypatch):
+    from trainopt.studies import parallel
+
+    monkeypatch.setattr(parallel, "WORKER_START_SECONDS", 0.0)  # the pool, however short
     other = audit_history(demo_case, history, binning=Binning(min_rows=1), workers=2,
                           progress=False)
     columns = ["shaft_power_kW", "optimum_shaft_power_kW", "recycle_power_kW"]

@@ -22,7 +22,7 @@ from collections.abc import Sequence
 from enum import Enum
 
 import numpy as np
-import pyomo.environ as pyo
+import pyomo.core as pyo
 
 from trainopt.dispatch.piecewise import (
     add_block_incremental,
@@ -135,7 +135,7 @@ def build_model(curves: Sequence[UnitCurve], demand: float, *,
 
     Returns
     -------
-    pyomo.environ.ConcreteModel
+    pyomo.core.ConcreteModel
         The model. ``model.formulation_summary`` says which formulation each unit got.
 
     Raises

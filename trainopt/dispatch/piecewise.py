@@ -27,7 +27,7 @@ from __future__ import annotations
 from collections.abc import Mapping, Sequence
 
 import numpy as np
-import pyomo.environ as pyo
+import pyomo.core as pyo
 
 __all__ = ["add_block_incremental", "add_convex_combination", "convex_blocks", "is_convex"]
 
@@ -116,7 +116,7 @@ def add_convex_combination(model: pyo.ConcreteModel, curves: Mapping[str, object
 
     Parameters
     ----------
-    model : pyomo.environ.ConcreteModel
+    model : pyomo.core.ConcreteModel
         A model from :func:`trainopt.dispatch.model.build_model` (needs ``run``, ``through_flow``
         and ``unit_cost``).
     curves : mapping of str to UnitCurve
@@ -168,7 +168,7 @@ def add_block_incremental(model: pyo.ConcreteModel, curves: Mapping[str, object]
 
     Parameters
     ----------
-    model : pyomo.environ.ConcreteModel
+    model : pyomo.core.ConcreteModel
         A model from :func:`trainopt.dispatch.model.build_model`.
     curves : mapping of str to UnitCurve
         The units written this way, by name.

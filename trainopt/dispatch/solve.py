@@ -25,9 +25,9 @@ from collections.abc import Sequence
 from typing import NamedTuple
 
 import numpy as np
-import pyomo.environ as pyo
-from pyomo.contrib.solver.common.factory import SolverFactory
+import pyomo.core as pyo
 from pyomo.contrib.solver.common.results import SolutionStatus, TerminationCondition
+from pyomo.contrib.solver.solvers.highs import Highs
 
 from trainopt.dispatch.model import (
     CONVEXITY_RTOL,
@@ -343,7 +343,7 @@ def solve_dispatch(curves: Sequence[UnitCurve], demand: float, *, mip_gap: float
 
 
 def _persistent_highs():
-    solver = SolverFactory("highs")
+    solver = Highs()
     updates = solver.config.auto_updates
     # Only parameter values change between solves: skip the scans for new components.
     updates.check_for_new_or_removed_constraints = False

@@ -5,7 +5,12 @@ audit, one point of an envelope sweep). :func:`run_tasks` runs them:
 
 - in this process, one after another, for ``workers=1``;
 - on a local pool of ``workers`` processes (default: every core), started with the
-  ``spawn`` method so that no solver or CoolProp state is shared with the parent;
+  ``spawn`` method so that no solver or CoolProp state is shared with the parent. A spawned
+  process imports trainopt, CoolProp, Pyomo and SciPy again (about 4 s of CPU each,
+  :data:`WORKER_START_SECONDS`), so tasks run here first, one after another, while the
+  work left is too small to repay that start: a pool is started only once the last task's
+  time (from the second task on) times the tasks left, shared over the workers, saves
+  more than a worker's start;
 - on an existing Dask cluster when a scheduler address (``tcp://host:8786``) or a
   ``distributed.Client`` is given. Dask workers need trainopt installed; a task holds its
   own case, so nothing has to be copied to them beforehand.
@@ -18,12 +23,17 @@ from __future__ import annotations
 
 import multiprocessing
 import os
+import time
 from collections.abc import Callable, Sequence
 from concurrent.futures import ProcessPoolExecutor, as_completed
 
 from tqdm.auto import tqdm
 
 from trainopt.errors import InputError
+
+WORKER_START_SECONDS = 4.0
+"""CPU time [s] a spawned worker spends importing trainopt and its libraries before its
+first task (measured on the development machine, 2 cores, light load: 3.5-4.5 s)."""
 
 
 def default_workers() -> int:
@@ -36,7 +46,8 @@ def default_workers() -> int:
 
 def run_tasks(func: Callable, tasks: Sequence, *, workers: int | None = None,
               scheduler=None, weights: Sequence[float] | None = None,
-              progress: bool = True, description: str = "tasks", unit: str = "task") -> list:
+              progress: bool = True, description: str = "tasks", unit: str = "task",
+              start_cost: float | None = None) -> list:
     """Run ``func(task)`` for every task; return the results in the order of the tasks.
 
     Parameters
@@ -56,6 +67,13 @@ def run_tasks(func: Callable, tasks: Sequence, *, workers: int | None = None,
         Show a progress bar on stderr.
     description, unit : str
         Progress-bar label and the unit of the weights.
+    start_cost : float, optional
+        Time [s] a local worker takes to start (default :data:`WORKER_START_SECONDS`).
+        Tasks run in this process while ``t_last * left * (1 - 1/workers) <= start_cost``
+        (``t_last`` [s] the last task's time, ``left`` the tasks left; judged from the
+        second task on, since the first also pays first-call costs); the rest go to a
+        pool once it is exceeded. 0 starts the pool at once. Each task runs the same
+        function either way, so the answers do not depend on where it ran.
 
     Returns
     -------
@@ -63,6 +81,7 @@ def run_tasks(func: Callable, tasks: Sequence, *, workers: int | None = None,
         ``func(task)`` for each task.
     """
     tasks = list(tasks)
+    start_cost = WORKER_START_SECONDS if start_cost is None else float(start_cost)
     weights = [1.0] * len(tasks) if weights is None else [float(w) for w in weights]
     order = sorted(range(len(tasks)), key=lambda i: -weights[i])
     bar = tqdm(total=sum(weights), desc=description, unit=unit, disable=not progress,
@@ -76,15 +95,24 @@ def run_tasks(func: Callable, tasks: Sequence, *, workers: int | None = None,
         if workers < 1:
             raise InputError("workers", f"{workers} is not a number of processes",
                              "give 1 or more")
-        if workers == 1 or len(tasks) <= 1:
-            for i in order:
-                results[i] = func(tasks[i])
-                bar.update(weights[i])
+        left, done = list(order), 0
+        while left and (workers == 1 or len(left) <= 1 or start_cost > 0):
+            i = left.pop(0)
+            start = time.perf_counter()
+            results[i] = func(tasks[i])
+            bar.update(weights[i])
+            done += 1
+            pooled = min(workers, len(left))
+            # the first task also pays this process's first-call costs: judge on the second
+            if done >= 2 and pooled > 1 and ((time.perf_counter() - start) * len(left)
+                                             * (1 - 1 / pooled) > start_cost):
+                break
+        if not left:
             return results
         context = multiprocessing.get_context("spawn")
-        with ProcessPoolExecutor(max_workers=min(workers, len(tasks)),
+        with ProcessPoolExecutor(max_workers=min(workers, len(left)),
                                  mp_context=context) as pool:
-            futures = {pool.submit(func, tasks[i]): i for i in order}
+            futures = {pool.submit(func, tasks[i]): i for i in left}
             for future in as_completed(futures):
                 i = futures[future]
                 results[i] = future.result()
