@@ -462,6 +462,9 @@ def test_very_high_delivery_pressure_is_an_answer_not_a_traceback(demo_case):
     # 44 to 140 bar: the duty table's 30 % efficiency point makes the bracket too narrow
     result = trainopt.optimize(replace(demo_case, discharge_pressure=140e5), baselines=False)
     assert result.status == "infeasible"
+    # every unit is available but none meets the duty: said so, not "no unit is available"
+    assert result.reason.startswith("no available unit can meet today's duty: A: ")
+    assert all(f"; {name}: " in result.reason for name in "BCD")
 
 
 def test_driver_power_short_says_so(pair_case):

@@ -38,6 +38,14 @@ from trainopt.station.result import StationResult
 __all__ = ["KeptStation", "ReducedStation", "answer", "objective_error_bound"]
 
 
+def no_unit_reason(station: Station) -> str:
+    """Why no unit can run: none is available, or none of the available ones meets the duty."""
+    bad = [f"{n}: {c.reason}" for n, c in station.curves.items() if not c.feasible]
+    if bad:
+        return "no available unit can meet today's duty: " + "; ".join(bad)
+    return "no unit is available"
+
+
 def infeasible_units_text(station: Station) -> str:
     """The units that cannot meet today's duty and why, as a clause of a reason."""
     bad = [f"{n}: {c.reason}" for n, c in station.curves.items() if not c.feasible]
@@ -71,7 +79,7 @@ def answer(station: Station, m_demand: float, dispatcher: Dispatcher | None = No
     if dispatcher is None:
         curves = station.unit_curves()
         if not curves:
-            reason = "no unit is available" + infeasible_units_text(station)
+            reason = no_unit_reason(station)
             return StationResult.infeasible(case, m_demand, reason, station.objective)
         dispatcher = Dispatcher(curves)
     dispatch = dispatcher.solve(m_demand)
@@ -269,6 +277,6 @@ class ReducedStation:
         m_demand = requested_demand(self.case, demand)
         dispatcher = self.dispatcher(offline, station.objective, must_run)
         if dispatcher is None:
-            reason = "no unit is available" + infeasible_units_text(station)
+            reason = no_unit_reason(station)
             return StationResult.infeasible(self.case, m_demand, reason, station.objective)
         return answer(station, m_demand, dispatcher, baselines, trip_reserve)

@@ -19,10 +19,7 @@ from trainopt.machines.train import UnitStatus
 from trainopt.physics.units import Kind, parse_flow, parse_quantity
 from trainopt.station.header import evaluate_header_split, optimize_header
 from trainopt.station.reduced import Station, evaluate_split, requested_demand
-from trainopt.station.reduced_station import answer, objective_error_bound  # noqa: F401
-from trainopt.station.reduced_station import (  # noqa: F401 (kept importable from here)
-    infeasible_units_text as _infeasible_units_text,
-)
+from trainopt.station.reduced_station import answer
 from trainopt.station.result import StationResult
 
 
