@@ -1,4 +1,4 @@
-"""Every speed target of issue 11 against its figure, measured in one run.
+"""Every design speed target against its figure, measured in one run.
 
 Run from the repository root (two to five minutes on two cores)::
 
@@ -249,7 +249,7 @@ def studies() -> list[str]:
 
 
 def main(argv=None) -> int:
-    parser = argparse.ArgumentParser(description="issue 11 speed targets")
+    parser = argparse.ArgumentParser(description="design speed targets")
     parser.add_argument("--skip-studies", action="store_true",
                         help="leave out the envelope and the year audit")
     args = parser.parse_args(argv)

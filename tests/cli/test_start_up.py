@@ -2,7 +2,7 @@
 
 Each check runs in a fresh interpreter (``python -c``) and reads ``sys.modules`` there, so
 what other tests imported does not count. The heavy libraries are those measured to cost
-most of the former start-up (issue 11's measurements, regression values (own output)):
+most of the former start-up (measured before the lazy start; regression values (own output)):
 CoolProp, Pyomo, matplotlib and pandas.
 """
 
@@ -42,7 +42,7 @@ def test_start_up_loads_no_heavy_library(code):
 
 
 def test_first_use_loads_the_name_and_keeps_the_public_list():
-    # the names before the layout change, plus schedule and calibrate (issues 12 and 13)
+    # the names before the layout change, plus the schedule and calibration studies
     assert trainopt.__all__ == ["Case", "InfeasibleError", "InputError", "PhysicsError",
                                 "TrainoptError", "calibrate", "evaluate", "load_case",
                                 "optimize", "schedule"]
