@@ -21,6 +21,7 @@ import time
 from pathlib import Path
 
 import numpy as np
+from map_evaluation import best_time
 
 import trainopt
 from trainopt.dispatch.reduction import FINE_POINTS
@@ -47,14 +48,9 @@ def reference_shaft_power(train, duty, mass_flow) -> np.ndarray:
     return mass_flow * duty.specific_work(eta) * (1.0 + train.mechanical_loss)
 
 
-def best(call, repeats: int = 5) -> float:
-    """Shortest wall time of ``call()`` [s]."""
-    times = []
-    for _ in range(repeats):
-        start = time.perf_counter()
-        call()
-        times.append(time.perf_counter() - start)
-    return min(times)
+def best(call) -> float:
+    """Shortest wall time of ``call()`` over five repeats [s]."""
+    return best_time(call, repeats=5)
 
 
 def main() -> None:
