@@ -24,8 +24,9 @@ import CoolProp.CoolProp as CP
 import numpy as np
 
 from trainopt.case.gas_file import load_gas
+from trainopt.physics.components import COOLPROP_NAME
 from trainopt.physics.compression import PolytropicMethod, compress
-from trainopt.physics.gas import _COMPONENTS, EquationOfState, Gas
+from trainopt.physics.gas import EquationOfState, Gas
 
 DEMO_GAS = Path(__file__).resolve().parents[1] / "cases" / "demo" / "gas.yaml"
 
@@ -44,7 +45,7 @@ def main() -> None:
     gas = load_gas(DEMO_GAS)
     build = time.perf_counter() - start
     pr = load_gas(DEMO_GAS, EquationOfState.PENG_ROBINSON)
-    names = [_COMPONENTS[n][0] for n, _ in gas.components]
+    names = [COOLPROP_NAME[n] for n, _ in gas.components]
     fractions = [x for _, x in gas.components]
 
     rng = np.random.default_rng(1)

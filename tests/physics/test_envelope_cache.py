@@ -12,7 +12,7 @@ import json
 import numpy as np
 import pytest
 
-from trainopt.physics import gas as gas_module
+from trainopt.physics import dew_point
 from trainopt.physics.envelope_cache import (
     ENV_VAR,
     cache_folder,
@@ -94,10 +94,10 @@ def test_an_unwritable_folder_still_returns_the_envelope(tmp_path, monkeypatch):
 
 def test_the_gas_envelope_from_the_cache_equals_coolprops_trace(folder, aga8_gulf_coast_gas):
     comp = dict(aga8_gulf_coast_gas.components)
-    gas_module._envelope.cache_clear()
+    dew_point.envelope.cache_clear()
     first = Gas.from_composition(comp).envelope
     assert list(folder.glob("envelope-*.json"))
-    gas_module._envelope.cache_clear()
+    dew_point.envelope.cache_clear()
     second = Gas.from_composition(comp).envelope
     np.testing.assert_array_equal(first.temperature, second.temperature)
     np.testing.assert_array_equal(first.pressure, second.pressure)

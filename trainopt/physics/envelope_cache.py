@@ -9,10 +9,9 @@ version, so they are kept in the user's cache folder (``platformdirs.user_cache_
 - The key is a SHA-256 of the component names, the mole fractions written to 17
   significant digits, the CoolProp version and :data:`FORMAT`: a new composition or a
   new CoolProp traces afresh.
-- A file is written to a temporary name in the same folder and renamed over the final
-  one (:func:`os.replace`, atomic on POSIX and Windows), so a reader never sees half a file.
 - A file that cannot be read, or does not hold what it should, is ignored and rebuilt.
-- A folder that cannot be written only costs the speed: the envelope is still returned.
+- Files are written whole or not at all, and a folder that cannot be written only costs
+  the speed (:mod:`trainopt.physics.disk_cache`).
 """
 
 from __future__ import annotations
@@ -20,29 +19,18 @@ from __future__ import annotations
 import hashlib
 import json
 import math
-import os
-import tempfile
 from collections.abc import Callable
 from pathlib import Path
 
-ENV_VAR = "TRAINOPT_CACHE_DIR"
-"""Environment variable naming the cache folder (default: the user's cache folder)."""
+from trainopt.physics.disk_cache import ENV_VAR, cache_folder, write_atomically
+
+__all__ = ["ENV_VAR", "FORMAT", "cache_folder", "cache_key", "cache_path", "cached_envelope"]
 
 FORMAT = 1
 """Version of the file layout; part of the key."""
 
 Traced = tuple[list[float], list[float]] | None
 """Temperatures [K] and pressures [Pa] along the envelope, or None when tracing failed."""
-
-
-def cache_folder() -> Path:
-    """The folder holding the cached envelopes (created on the first write)."""
-    named = os.environ.get(ENV_VAR)
-    if named:
-        return Path(named)
-    import platformdirs
-
-    return Path(platformdirs.user_cache_dir("trainopt", appauthor=False))
 
 
 def cache_key(names: tuple[str, ...], fractions: tuple[float, ...], version: str) -> str:
@@ -78,18 +66,7 @@ def _write(path: Path, key: str, traced: Traced) -> None:
     data = {"key": key, "failed": traced is None,
             "temperature": [] if traced is None else list(traced[0]),
             "pressure": [] if traced is None else list(traced[1])}
-    try:
-        path.parent.mkdir(parents=True, exist_ok=True)
-        fd, tmp = tempfile.mkstemp(prefix=".envelope-", suffix=".tmp", dir=path.parent)
-        try:
-            with os.fdopen(fd, "w", encoding="utf-8") as handle:
-                json.dump(data, handle)
-            os.replace(tmp, path)
-        except BaseException:
-            Path(tmp).unlink(missing_ok=True)
-            raise
-    except OSError:
-        pass  # a read-only or full cache folder only costs the speed
+    write_atomically(path, lambda handle: json.dump(data, handle))
 
 
 def cached_envelope(names: tuple[str, ...], fractions: tuple[float, ...], version: str,

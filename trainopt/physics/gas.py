@@ -17,14 +17,22 @@ from __future__ import annotations
 import math
 import warnings
 from dataclasses import dataclass, field
-from functools import lru_cache
 
-import CoolProp.CoolProp as CP
 import numpy as np
 
 from trainopt.errors import InputError, PhysicsError, TwoPhaseError
+from trainopt.physics import dew_point
 from trainopt.physics.choices import EquationOfState
-from trainopt.physics.envelope_cache import cached_envelope
+from trainopt.physics.components import (
+    ALIAS,
+    COMPONENT_NAMES,
+    COOLPROP_NAME,
+    abstract_state,
+    coolprop,
+    identity,
+)
+from trainopt.physics.dew_point import PhaseEnvelope, hydrocarbon_part
+from trainopt.physics.state_memo import DiskMemo
 from trainopt.physics.units import REFERENCE_CONDITIONS, Flow, FlowBasis, ReferenceConditions
 
 GAS_CONSTANT = 8.314462618
@@ -32,41 +40,6 @@ GAS_CONSTANT = 8.314462618
 
 DEW_POINT_MARGIN = 3.0
 """Least distance [K] a state must keep above the mixture's dew temperature."""
-
-_COMPONENTS = {
-    "methane": ("Methane", "C1 CH4"),
-    "ethane": ("Ethane", "C2 C2H6"),
-    "propane": ("Propane", "C3 C3H8"),
-    "isobutane": ("IsoButane", "iC4 i-butane i-C4"),
-    "n-butane": ("n-Butane", "nC4 butane n-C4"),
-    "isopentane": ("Isopentane", "iC5 i-pentane i-C5"),
-    "n-pentane": ("n-Pentane", "nC5 pentane n-C5"),
-    "n-hexane": ("n-Hexane", "C6 nC6 hexane n-C6"),
-    "n-heptane": ("n-Heptane", "C7 nC7 heptane n-C7"),
-    "n-octane": ("n-Octane", "C8 nC8 octane n-C8"),
-    "n-nonane": ("n-Nonane", "C9 nC9 nonane n-C9"),
-    "n-decane": ("n-Decane", "C10 nC10 decane n-C10"),
-    "nitrogen": ("Nitrogen", "N2"),
-    "carbon dioxide": ("CarbonDioxide", "CO2"),
-    "hydrogen sulfide": ("HydrogenSulfide", "H2S"),
-    "hydrogen": ("Hydrogen", "H2"),
-    "oxygen": ("Oxygen", "O2"),
-    "carbon monoxide": ("CarbonMonoxide", "CO"),
-    "water": ("Water", "H2O"),
-    "helium": ("Helium", "He"),
-    "argon": ("Argon", "Ar"),
-}
-COMPONENT_NAMES = tuple(_COMPONENTS)
-"""Component names trainopt accepts (aliases such as ``C1``, ``CO2``, ``iC4`` also work)."""
-
-_ALIAS = {name: name for name in _COMPONENTS}
-for _name, (_cp, _aliases) in _COMPONENTS.items():
-    _ALIAS[_cp.lower()] = _name
-    for _alias in _aliases.split():
-        _ALIAS[_alias.lower()] = _name
-
-_SUPERCRITICAL_TRACES = ("hydrogen", "helium", "argon", "oxygen", "carbon monoxide", "water")
-
 
 @dataclass(frozen=True)
 class GasState:
@@ -107,47 +80,13 @@ class GasState:
     molar_mass: float
 
 
-@dataclass(frozen=True)
-class PhaseEnvelope:
-    """Dew and bubble curve of a mixture, from CoolProp's phase-envelope tracer.
-
-    Attributes
-    ----------
-    temperature, pressure : numpy.ndarray
-        Points along the envelope [K], [Pa].
-    cricondentherm : float
-        Highest temperature of the envelope [K].
-    cricondenbar : float
-        Highest pressure of the envelope [Pa].
-    method : str
-        How the envelope was found (whole composition, or without supercritical traces).
-    """
-
-    temperature: np.ndarray
-    pressure: np.ndarray
-    cricondentherm: float
-    cricondenbar: float
-    method: str
-
-    def dew_temperature(self, pressure: float) -> float:
-        """Highest envelope temperature at a pressure [K]; NaN above the cricondenbar."""
-        p, t = self.pressure, self.temperature
-        crossings = []
-        for i in range(len(p) - 1):
-            lo, hi = sorted((p[i], p[i + 1]))
-            if lo <= pressure <= hi and hi > lo:
-                w = (pressure - p[i]) / (p[i + 1] - p[i])
-                crossings.append(t[i] + w * (t[i + 1] - t[i]))
-        return max(crossings) if crossings else math.nan
-
-
 def _normalise(composition: dict, field_name: str) -> tuple[tuple[str, float], ...]:
     if not isinstance(composition, dict) or not composition:
         raise InputError(field_name, "expected a mapping of component to mole fraction",
                          "e.g. {methane: 0.9, ethane: 0.06, propane: 0.04}")
     fractions: dict[str, float] = {}
     for key, value in composition.items():
-        name = _ALIAS.get(str(key).strip().lower())
+        name = ALIAS.get(str(key).strip().lower())
         if name is None:
             raise InputError(f"{field_name}.{key}", f"unknown component '{key}'",
                              f"use one of {', '.join(COMPONENT_NAMES)}")
@@ -174,91 +113,25 @@ class CompositionWarning(UserWarning):
     """The mole fractions did not sum to one and were normalised."""
 
 
-@lru_cache(maxsize=64)
-def _abstract_state(backend: str, names: tuple[str, ...], fractions: tuple[float, ...]):
-    state = CP.AbstractState(backend, "&".join(_COMPONENTS[n][0] for n in names))
-    if len(names) > 1:
-        state.set_mole_fractions(list(fractions))
-    return state
-
-
-def _dew_mixture(names, fractions):
-    """The hydrocarbon part used for the dew-point check, renormalised."""
-    kept = [(n, x) for n, x in zip(names, fractions, strict=True) if n not in _SUPERCRITICAL_TRACES]
-    total = sum(x for _, x in kept)
-    return tuple(n for n, _ in kept), tuple(x / total for _, x in kept)
-
-
-@lru_cache(maxsize=64)
-def _dew_state(names: tuple[str, ...], fractions: tuple[float, ...]):
-    state = CP.AbstractState("HEOS", "&".join(_COMPONENTS[n][0] for n in names))
-    state.set_mole_fractions(list(fractions))
-    return state
-
-
-@lru_cache(maxsize=64)
-def _envelope(names: tuple[str, ...], fractions: tuple[float, ...]) -> PhaseEnvelope | None:
-    """The traced envelope, from the disk cache when this composition was traced before."""
-    if len(names) < 2:
-        return None
-
-    def trace():
-        state = _dew_state(names, fractions)
-        try:
-            state.build_phase_envelope("")
-            data = state.get_phase_envelope_data()
-        except ValueError:
-            return None
-        return (list(data.T), list(data.p)) if len(data.T) >= 4 else None
-
-    traced = cached_envelope(names, fractions, _coolprop_version(), trace)
-    if traced is None:
-        return None
-    t, p = np.asarray(traced[0], float), np.asarray(traced[1], float)
-    return PhaseEnvelope(t, p, float(t.max()), float(p.max()), _DEW_METHOD)
-
-
-@lru_cache(maxsize=1)
-def _coolprop_version() -> str:
-    return f"{CP.get_global_param_string('version')} {CP.get_global_param_string('gitrevision')}"
-
-
-_DEW_METHOD = ("hydrocarbon dew point: CoolProp HEOS (GERG-2008 parameters) on the composition "
-               "without " + ", ".join(_SUPERCRITICAL_TRACES) + ", renormalised")
-
-
-@lru_cache(maxsize=1024)
-def _dew_temperature(names: tuple[str, ...], fractions: tuple[float, ...], pressure: float
-                     ) -> tuple[float, bool]:
-    """Dew temperature [K] at a pressure and whether the check could be made.
-
-    The pressure-quality flash alone can land on the lower dew branch of the retrograde
-    region (for the demo gas at 60 bar it gives -66 degC where the upper dew point is
-    -31 degC, and a gas at -40 degC there is two-phase), or report a dew point above the
-    cricondenbar. So the traced envelope, built once per composition, decides; the flash
-    only refines it where it is higher than the envelope's linear interpolation.
-    """
-    if len(names) < 2:
-        return math.nan, True
-    t_flash = math.nan
-    state = _dew_state(names, fractions)
-    try:
-        state.update(CP.PQ_INPUTS, pressure, 1.0)
-        if 50.0 < state.T() < 600.0:
-            t_flash = state.T()
-    except ValueError:
-        pass
-    envelope = _envelope(names, fractions)
-    if envelope is None:
-        return t_flash, not math.isnan(t_flash)
-    if pressure > envelope.cricondenbar:
-        return math.nan, True
-    t = float(np.fmax(t_flash, envelope.dew_temperature(pressure)))
-    return t, not math.isnan(t)
-
-
 class DewPointWarning(UserWarning):
     """The dew point of a gas could not be found; the state was taken as gas."""
+
+
+class _Engine:
+    """CoolProp's state for one gas, made at the first question its memo cannot answer."""
+
+    def __init__(self, backend: str, names: tuple[str, ...], fractions: tuple[float, ...]):
+        self.args = (backend, names, fractions)
+        self.memo = DiskMemo("states", identity(backend, names, fractions), 2, 9)
+        self._state = None
+
+    def state(self):
+        """The gas-phase AbstractState (CoolProp is imported here)."""
+        if self._state is None:
+            state = abstract_state(*self.args)
+            state.specify_phase(coolprop().iphase_gas)
+            self._state = state
+        return self._state
 
 
 @dataclass(frozen=True)
@@ -278,7 +151,7 @@ class Gas:
 
     components: tuple[tuple[str, float], ...]
     equation_of_state: EquationOfState = EquationOfState.GERG2008
-    _state: object = field(default=None, repr=False, compare=False)
+    _engine: _Engine | None = field(default=None, repr=False, compare=False)
 
     @classmethod
     def from_composition(
@@ -308,23 +181,29 @@ class Gas:
         components = _normalise(composition, field_name)
         names = tuple(n for n, _ in components)
         fractions = tuple(x for _, x in components)
-        try:
-            state = _abstract_state(equation_of_state.value, names, fractions)
-        except ValueError as exc:
-            raise InputError(field_name, f"CoolProp cannot build this mixture ({exc})",
-                             "remove the components it names") from None
-        state.specify_phase(CP.iphase_gas)
-        return cls(components, equation_of_state, state)
+        engine = _Engine(equation_of_state.value, names, fractions)
+        if not engine.memo.on_disk:  # a memo on disk means CoolProp built this gas before
+            try:
+                engine.state()
+            except ValueError as exc:
+                raise InputError(field_name, f"CoolProp cannot build this mixture ({exc})",
+                                 "remove the components it names") from None
+        return cls(components, equation_of_state, engine)
 
     @property
     def molar_mass(self) -> float:
         """Molar mass of the mixture [kg/mol]."""
-        return float(self._state.molar_mass())
+        memo = self._engine.memo
+        known = memo.fact("molar_mass")
+        if known is None:
+            known = float(self._engine.state().molar_mass())
+            memo.set_fact("molar_mass", known)
+        return known
 
     @property
     def envelope(self) -> PhaseEnvelope | None:
         """Phase envelope of the hydrocarbon part (slow the first time: 0.1-12 s)."""
-        return _envelope(*_dew_mixture(*zip(*self.components, strict=True)))
+        return dew_point.envelope(*hydrocarbon_part(*zip(*self.components, strict=True)))
 
     def dew_temperature(self, pressure: float) -> float:
         """Hydrocarbon dew temperature at a pressure [K]; NaN above the cricondenbar.
@@ -343,7 +222,7 @@ class Gas:
         not condense at compressor conditions, and the tracer fails with them. The water
         dew point and hydrate formation are not checked.
         """
-        t, _ = _dew_temperature(*_dew_mixture(*zip(*self.components, strict=True)),
+        t, _ = dew_point.dew_temperature(*hydrocarbon_part(*zip(*self.components, strict=True)),
                                 round(pressure, -2))
         return t
 
@@ -361,17 +240,17 @@ class Gas:
         """
         if len(self.components) == 1:
             name = self.components[0][0]
-            t_crit = CP.PropsSI("Tcrit", _COMPONENTS[name][0])
+            t_crit = coolprop().PropsSI("Tcrit", COOLPROP_NAME[name])
             if temperature > t_crit:
                 return
-            t_sat = CP.PropsSI("T", "P", pressure, "Q", 1, _COMPONENTS[name][0])
+            t_sat = coolprop().PropsSI("T", "P", pressure, "Q", 1, COOLPROP_NAME[name])
             if temperature < t_sat + DEW_POINT_MARGIN:
                 raise TwoPhaseError(f"{where}: {temperature - 273.15:.1f} degC is at or below the "
                                     f"saturation temperature {t_sat - 273.15:.1f} degC at "
                                     f"{pressure / 1e3:.0f} kPa")
             return
-        names, fractions = _dew_mixture(*zip(*self.components, strict=True))
-        t_dew, checked = _dew_temperature(names, fractions, round(pressure, -2))
+        names, fractions = hydrocarbon_part(*zip(*self.components, strict=True))
+        t_dew, checked = dew_point.dew_temperature(names, fractions, round(pressure, -2))
         if not checked:
             warnings.warn(f"{where}: the dew point of this gas could not be found at "
                           f"{pressure / 1e3:.0f} kPa; the state is taken as gas",
@@ -402,20 +281,27 @@ class Gas:
         -----
         Call :meth:`check_gas_phase` once for states a user gives; states reached by
         compression (hotter at higher pressure) stay in the gas phase for natural gas.
+        A state asked for before, in this process or an earlier one, comes from the gas's
+        :class:`~trainopt.physics.state_memo.DiskMemo` (CoolProp's own numbers).
         """
         if not (pressure > 0.0 and temperature > 0.0):
             raise PhysicsError(f"state needs positive pressure and temperature, got "
                                f"{pressure:g} Pa and {temperature:g} K")
-        s = self._state
+        key = (float(pressure), float(temperature))
+        known = self._engine.memo.get(key)
+        if known is not None:
+            return GasState(pressure, temperature, *known)
+        s = self._engine.state()
         try:
-            s.update(CP.PT_INPUTS, pressure, temperature)
+            s.update(coolprop().PT_INPUTS, pressure, temperature)
         except ValueError as exc:
             raise PhysicsError(f"CoolProp could not evaluate {pressure / 1e3:.1f} kPa, "
                                f"{temperature - 273.15:.1f} degC: {exc}") from None
         rho, w = s.rhomass(), s.speed_sound()
-        return GasState(pressure, temperature, rho, s.compressibility_factor(), s.hmass(),
-                        s.smass(), s.cpmass(), s.cvmass(), w, rho * w * w / pressure,
-                        s.molar_mass())
+        values = (rho, s.compressibility_factor(), s.hmass(), s.smass(), s.cpmass(),
+                  s.cvmass(), w, rho * w * w / pressure, s.molar_mass())
+        self._engine.memo.put(key, values)
+        return GasState(pressure, temperature, *values)
 
     def properties(self, pressure, temperature) -> dict[str, np.ndarray]:
         """Evaluate many states; arguments broadcast like numpy arrays.
