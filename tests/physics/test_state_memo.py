@@ -164,3 +164,21 @@ def test_states_from_the_memo_equal_coolprops_in_process(folder):
     rho = CP.PropsSI("Dmass", "P", 5.0e6, "T", 300.0,
                      "HEOS::Methane[0.9]&Ethane[0.06]&Propane[0.04]")
     assert first.density == pytest.approx(rho, rel=1e-9)  # CoolProp, phase left to it
+
+
+def test_one_memo_per_gas_in_a_process(folder):
+    identity = {"backend": "HEOS", "names": ["methane"], "fractions": ["1"]}
+    assert state_memo.memo_for("states", identity, 2, 3) is state_memo.memo_for(
+        "states", dict(identity), 2, 3)
+    assert state_memo.memo_for("dew", identity, 1, 2) is not state_memo.memo_for(
+        "states", identity, 2, 3)
+
+
+def test_memory_keeps_the_most_recent_answers(folder, monkeypatch):
+    monkeypatch.setattr(state_memo, "MAX_ENTRIES", 3)
+    memo = _memo()
+    for i in range(10):
+        memo.put((float(i), 300.0), (float(i), 0.0, 0.0))
+    assert memo.get((9.0, 300.0)) == (9.0, 0.0, 0.0)
+    assert memo.get((0.0, 300.0)) is None
+    assert len(memo._loaded()) <= 2 * 3

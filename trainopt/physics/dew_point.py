@@ -17,7 +17,7 @@ import numpy as np
 
 from trainopt.physics.components import SUPERCRITICAL_TRACES, coolprop, coolprop_fluids, identity
 from trainopt.physics.envelope_cache import cached_envelope
-from trainopt.physics.state_memo import DiskMemo, coolprop_version
+from trainopt.physics.state_memo import DiskMemo, coolprop_version, memo_for
 
 
 @dataclass(frozen=True)
@@ -96,7 +96,7 @@ _DEW_METHOD = ("hydrocarbon dew point: CoolProp HEOS (GERG-2008 parameters) on t
 
 @lru_cache(maxsize=64)
 def _dew_memo(names: tuple[str, ...], fractions: tuple[float, ...]) -> DiskMemo:
-    return DiskMemo("dew", identity("HEOS", names, fractions), 1, 2)
+    return memo_for("dew", identity("HEOS", names, fractions), 1, 2)
 
 
 def dew_temperature(names: tuple[str, ...], fractions: tuple[float, ...], pressure: float

@@ -32,7 +32,7 @@ from trainopt.physics.components import (
     identity,
 )
 from trainopt.physics.dew_point import PhaseEnvelope, hydrocarbon_part
-from trainopt.physics.state_memo import DiskMemo
+from trainopt.physics.state_memo import memo_for
 from trainopt.physics.units import REFERENCE_CONDITIONS, Flow, FlowBasis, ReferenceConditions
 
 GAS_CONSTANT = 8.314462618
@@ -122,7 +122,7 @@ class _Engine:
 
     def __init__(self, backend: str, names: tuple[str, ...], fractions: tuple[float, ...]):
         self.args = (backend, names, fractions)
-        self.memo = DiskMemo("states", identity(backend, names, fractions), 2, 9)
+        self.memo = memo_for("states", identity(backend, names, fractions), 2, 9)
         self._state = None
 
     def state(self):
@@ -184,10 +184,11 @@ class Gas:
         engine = _Engine(equation_of_state.value, names, fractions)
         if not engine.memo.on_disk:  # a memo on disk means CoolProp built this gas before
             try:
-                engine.state()
+                state = engine.state()
             except ValueError as exc:
                 raise InputError(field_name, f"CoolProp cannot build this mixture ({exc})",
                                  "remove the components it names") from None
+            engine.memo.set_fact("molar_mass", float(state.molar_mass()))
         return cls(components, equation_of_state, engine)
 
     @property

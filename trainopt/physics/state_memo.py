@@ -39,6 +39,7 @@ MAX_ENTRIES = 20_000
 """Most answers one file keeps (the most recent); about 2 MB for gas states."""
 
 _PENDING: list[DiskMemo] = []
+_SHARED: dict[str, DiskMemo] = {}
 
 
 @lru_cache(maxsize=1)
@@ -52,8 +53,20 @@ def coolprop_version() -> str:
         return "unknown"
 
 
+def memo_for(kind: str, identity: dict, n_inputs: int, n_outputs: int) -> DiskMemo:
+    """The process's one :class:`DiskMemo` for a kind and gas (read from disk once).
+
+    Parameters are those of :class:`DiskMemo`.
+    """
+    memo = DiskMemo(kind, identity, n_inputs, n_outputs)
+    return _SHARED.setdefault(memo.key, memo)
+
+
 class DiskMemo:
     """Answers of one kind for one gas: fixed-width float inputs to float outputs.
+
+    Build it with :func:`memo_for`, so that every gas object of one composition shares it.
+    In memory it keeps at most twice :data:`MAX_ENTRIES` answers (the most recent).
 
     Parameters
     ----------
@@ -100,8 +113,12 @@ class DiskMemo:
 
     def put(self, inputs: tuple[float, ...], outputs: tuple[float, ...]) -> None:
         """Keep an answer (written to disk when the process ends)."""
-        self._loaded()[inputs] = outputs
+        answers = self._loaded()
+        answers[inputs] = outputs
         self._new[inputs] = outputs
+        if len(answers) > 2 * MAX_ENTRIES:  # keep the most recent; amortised O(1) a call
+            self._answers = dict(list(answers.items())[-MAX_ENTRIES:])
+            self._new = dict(list(self._new.items())[-MAX_ENTRIES:])
         self._pending()
 
     def fact(self, name: str) -> float | None:
