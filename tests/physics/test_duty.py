@@ -22,7 +22,7 @@ OFF_GRID = np.array([0.6137, 0.7071, 0.7793, 0.8519, 0.9013])
 
 
 @pytest.mark.parametrize("basis", list(HeadBasis))
-@pytest.mark.parametrize("p1, t1, p2", CONDITIONS)
+@pytest.mark.parametrize(("p1", "t1", "p2"), CONDITIONS)
 def test_table_equals_direct_computation_between_grid_points(aga8_gulf_coast_gas, basis,
                                                               p1, t1, p2):
     duty = Duty.build(aga8_gulf_coast_gas, p1, t1, p2, basis)

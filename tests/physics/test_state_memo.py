@@ -182,3 +182,18 @@ def test_memory_keeps_the_most_recent_answers(folder, monkeypatch):
     assert memo.get((9.0, 300.0)) == (9.0, 0.0, 0.0)
     assert memo.get((0.0, 300.0)) is None
     assert len(memo._loaded()) <= 2 * 3
+
+
+def test_the_folder_keeps_the_most_recently_written_files(folder, monkeypatch):
+    monkeypatch.setattr(state_memo, "MAX_FILES", 2)
+    paths = []
+    for i, fractions in enumerate([(0.9, 0.1), (0.8, 0.2), (0.7, 0.3)]):
+        memo = _memo(fractions)
+        memo.put((1e6, 300.0), (1.0, 2.0, 3.0))
+        memo.flush()
+        os.utime(memo.path, (1_000_000 + i, 1_000_000 + i))
+        paths.append(memo.path)
+    (folder / "envelope-kept.json").write_text("{}")
+    assert state_memo.prune(folder) == 1
+    assert [p.exists() for p in paths] == [False, True, True]
+    assert (folder / "envelope-kept.json").exists()

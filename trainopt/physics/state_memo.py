@@ -38,6 +38,9 @@ FORMAT = 1
 MAX_ENTRIES = 20_000
 """Most answers one file keeps (the most recent); about 2 MB for gas states."""
 
+MAX_FILES = 100
+"""Most memo files the cache folder keeps; the least recently written go first."""
+
 _PENDING: list[DiskMemo] = []
 _SHARED: dict[str, DiskMemo] = {}
 
@@ -187,8 +190,33 @@ def _read(path, key: str, shape: tuple[int, int]) -> tuple[bool, dict, dict]:
     return True, answers, dict(zip(names.tolist(), values.tolist(), strict=True))
 
 
+def prune(folder) -> int:
+    """Delete the least recently written memo files beyond :data:`MAX_FILES`.
+
+    Returns
+    -------
+    int
+        Number of files deleted.
+    """
+    try:
+        files = sorted(folder.glob("*.npz"), key=lambda path: path.stat().st_mtime)
+    except OSError:
+        return 0
+    gone = 0
+    for path in files[:max(0, len(files) - MAX_FILES)]:
+        try:
+            path.unlink()
+            gone += 1
+        except OSError:
+            pass  # another process removed or is replacing it
+    return gone
+
+
 @atexit.register
 def flush_all() -> None:
-    """Write every memo that gained answers in this process (run at exit)."""
+    """Write every memo that gained answers in this process, then prune (run at exit)."""
+    written = False
     while _PENDING:
-        _PENDING.pop().flush()
+        written = _PENDING.pop().flush() or written
+    if written:
+        prune(cache_folder())
