@@ -113,9 +113,16 @@ def test_the_file_keeps_the_most_recent_answers(folder, monkeypatch):
         False, False, True, True, True]
 
 
-@pytest.mark.parametrize("content", [b"not a zip file", b""])
-def test_a_damaged_file_is_ignored_and_rewritten(folder, content):
+@pytest.mark.parametrize("damage", ["text", "empty", "truncated"])
+def test_a_damaged_file_is_ignored_and_rewritten(folder, damage):
     memo = _memo()
+    if damage == "truncated":  # a whole file cut short: the start of a zip, no directory
+        whole = _memo((0.5, 0.5))
+        whole.put((1.0, 2.0), (1.0, 2.0, 3.0))
+        whole.flush()
+        content = whole.path.read_bytes()[:100]
+    else:
+        content = b"not a zip file" if damage == "text" else b""
     memo.path.parent.mkdir(parents=True, exist_ok=True)
     memo.path.write_bytes(content)
     assert memo.on_disk is False
@@ -125,6 +132,10 @@ def test_a_damaged_file_is_ignored_and_rewritten(folder, content):
 
 
 def test_a_file_of_the_wrong_shape_is_ignored(folder):
+    memo = _memo()
+    np.save(folder / "plain.npy", np.zeros(3))
+    (folder / "plain.npy").replace(memo.path)  # one array, not an archive
+    assert memo.on_disk is False
     memo = _memo()
     np.savez(memo.path, key=np.array(memo.key), inputs=np.zeros((2, 5)),
              outputs=np.zeros((2, 3)), fact_names=np.array([], str), fact_values=np.zeros(0))

@@ -26,6 +26,7 @@ from __future__ import annotations
 import atexit
 import hashlib
 import json
+import zipfile
 from functools import lru_cache
 
 import numpy as np
@@ -175,12 +176,13 @@ class DiskMemo:
 def _read(path, key: str, shape: tuple[int, int]) -> tuple[bool, dict, dict]:
     """(found, answers, facts); found is False for a missing, unreadable or foreign file."""
     try:
-        with np.load(path, allow_pickle=False) as data:
+        with open(path, "rb") as handle, np.load(handle, allow_pickle=False) as data:
             if str(data["key"]) != key:
                 return False, {}, {}
             inputs, outputs = data["inputs"], data["outputs"]
             names, values = data["fact_names"], data["fact_values"]
-    except (OSError, ValueError, KeyError, EOFError):
+    except (OSError, ValueError, KeyError, EOFError, TypeError, AttributeError,
+            zipfile.BadZipFile):
         return False, {}, {}
     n_in, n_out = shape
     if (inputs.ndim != 2 or outputs.ndim != 2 or inputs.shape != (len(outputs), n_in)
