@@ -36,11 +36,18 @@ AGA8_GULF_COAST_GAS_PERCENT = {
 
 @pytest.fixture(scope="session", autouse=True)
 def envelope_cache_folder(tmp_path_factory):
-    """Phase envelopes are cached in a folder of this test session, not the user's."""
+    """Envelopes and gas-state memos are kept in a folder of this test session, not the user's.
+
+    The memos are written before the folder is given back, so that nothing this session
+    computed lands in the user's cache when the process ends.
+    """
+    from trainopt.physics.state_memo import flush_all
+
     folder = tmp_path_factory.mktemp("cache")
     before = os.environ.get("TRAINOPT_CACHE_DIR")
     os.environ["TRAINOPT_CACHE_DIR"] = str(folder)
     yield folder
+    flush_all()
     if before is None:
         os.environ.pop("TRAINOPT_CACHE_DIR", None)
     else:

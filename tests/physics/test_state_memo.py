@@ -192,7 +192,7 @@ def test_memory_keeps_the_most_recent_answers(folder, monkeypatch):
         memo.put((float(i), 300.0), (float(i), 0.0, 0.0))
     assert memo.get((9.0, 300.0)) == (9.0, 0.0, 0.0)
     assert memo.get((0.0, 300.0)) is None
-    assert len(memo._loaded()) <= 2 * 3
+    assert len(memo._answers) <= 2 * 3
 
 
 def test_the_folder_keeps_the_most_recently_written_files(folder, monkeypatch):
@@ -208,3 +208,15 @@ def test_the_folder_keeps_the_most_recently_written_files(folder, monkeypatch):
     assert state_memo.prune(folder) == 1
     assert [p.exists() for p in paths] == [False, True, True]
     assert (folder / "envelope-kept.json").exists()
+
+
+def test_rows_sharing_a_hash_are_told_apart(folder, monkeypatch):
+    monkeypatch.setattr(state_memo, "_hash", lambda rows: np.zeros(len(rows), np.uint64))
+    memo = _memo()
+    for i in range(3):
+        memo.put((1e6 + i, 300.0), (float(i), 0.0, 0.0))
+    memo.flush()
+    again = _memo()
+    assert [again.get((1e6 + i, 300.0)) for i in range(3)] == [
+        (0.0, 0.0, 0.0), (1.0, 0.0, 0.0), (2.0, 0.0, 0.0)]
+    assert again.get((1e6 + 3, 300.0)) is None
