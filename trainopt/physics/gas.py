@@ -4,7 +4,9 @@ A :class:`Gas` is built once per composition. It checks the composition, finds t
 mixture's phase envelope once (the dew-point check), and then evaluates states with the
 gas phase imposed, which is about 700 times faster than letting CoolProp find the phase
 on every call (0.25 ms against 184 ms a state on an 8-component gas, measured on the
-project's reference machine).
+project's reference machine). Every state CoolProp gives is kept on disk
+(:mod:`trainopt.physics.state_memo`): a later run asking for the same state does not load
+CoolProp at all.
 
 Two equations of state are offered (:class:`EquationOfState`): CoolProp's Helmholtz
 mixture model with the GERG-2008 mixing parameters (the default and the reference), and
